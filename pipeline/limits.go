@@ -232,36 +232,43 @@ func checkLimits(defs []*LimitDef, r *steps.Run) []rules.Result {
 				continue
 			}
 		}
-		out = append(out, d.Limit.Check(valueOf(d, ctx)))
+		v, problem := valueOf(d, ctx)
+		if problem != "" {
+			out = append(out, rules.Errored(d.Limit, problem))
+			continue
+		}
+		out = append(out, d.Limit.Check(v))
 	}
 	return out
 }
 
-func valueOf(d *LimitDef, ctx *hcl.EvalContext) rules.Value {
-	v, diags := d.Value.Value(ctx)
+// valueOf evaluates a limit's value: a number, a missing value with its
+// reason, or a problem that makes the limit an error.
+func valueOf(d *LimitDef, ctx *hcl.EvalContext) (v rules.Value, problem string) {
+	val, diags := d.Value.Value(ctx)
 	if diags.HasErrors() {
 		// An operation on a missing value fails inside HCL; name the
 		// missing input rather than the operator when we can.
 		for _, tr := range d.Value.Variables() {
 			if tv, td := tr.TraverseAbs(ctx); !td.HasErrors() && tv.IsNull() {
-				return rules.Value{Missing: reasonText(tv)}
+				return rules.Value{Missing: reasonText(tv)}, ""
 			}
 		}
-		return rules.Value{Missing: "cannot compute: " + firstDiag(diags)}
+		return v, "cannot compute: " + firstDiag(diags)
 	}
-	if v.IsNull() {
-		return rules.Value{Missing: reasonText(v)}
+	if val.IsNull() {
+		return rules.Value{Missing: reasonText(val)}, ""
 	}
-	v, _ = v.Unmark()
-	nv, err := convert.Convert(v, cty.Number)
+	val, _ = val.Unmark()
+	nv, err := convert.Convert(val, cty.Number)
 	if err != nil || nv.IsNull() {
-		return rules.Value{Missing: fmt.Sprintf("cannot compute: %s is not a number", d.Expr)}
+		return v, fmt.Sprintf("cannot compute: %s is not a number", d.Expr)
 	}
 	x, _ := nv.AsBigFloat().Float64()
 	if math.IsInf(x, 0) || math.IsNaN(x) {
-		return rules.Value{Missing: "cannot compute: the value is not finite"}
+		return v, "cannot compute: the value is not finite"
 	}
-	return rules.Value{X: x}
+	return rules.Value{X: x}, ""
 }
 
 func reasonText(v cty.Value) string {

@@ -159,8 +159,8 @@ scan:
 	if i != len(s) {
 		return bad(errSyntax)
 	}
-	// Leading zeros after the point were dropped from mant but counted in
-	// frac, so digs × 10^(exp-frac) is still the value.
+	// Leading zeros were left out of mant; those after the point are still
+	// counted in frac, so the value is mant × 10^(exp-frac).
 	exp -= frac
 	t := strings.TrimRight(string(mant), "0")
 	if t == "" {

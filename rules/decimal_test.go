@@ -244,17 +244,17 @@ func TestCompare(t *testing.T) {
 // max(digits, 0) decimals, and rounding it again changes nothing.
 func FuzzRound(f *testing.F) {
 	for _, c := range uspTable {
-		f.Add(c.unrounded, c.digits, uint8(0))
-		f.Add(c.unrounded, c.digits, uint8(1))
+		f.Add(c.unrounded, int8(c.digits), uint8(0))
+		f.Add(c.unrounded, int8(c.digits), uint8(1))
 	}
 	for _, s := range []string{"2.4501", "-0.125", "9.995", "1250", "+.5", "5.", "1E3", "2.5e-4",
 		"1e-400", "1e400", "-0.00", "", "1e", "0x10", "1e99999999999"} {
-		f.Add(s, 2, uint8(0))
-		f.Add(s, -2, uint8(2))
+		f.Add(s, int8(2), uint8(0))
+		f.Add(s, int8(-2), uint8(2))
 	}
 	modes := []Rounding{E29, HalfUp, Absolute}
-	f.Fuzz(func(t *testing.T, s string, digits int, m uint8) {
-		mode := modes[int(m)%len(modes)]
+	f.Fuzz(func(t *testing.T, s string, d int8, m uint8) {
+		digits, mode := int(d), modes[int(m)%len(modes)]
 		got, err := Round(s, digits, mode)
 		if err != nil {
 			return

@@ -116,7 +116,11 @@ func Read(r io.Reader, name string, opt Options) (*Data, error) {
 	if err != nil {
 		return nil, err
 	}
-	buf, err := readAll(r, name, 0, o.maxBytes)
+	var hint int64
+	if l, ok := r.(interface{ Len() int }); ok {
+		hint = int64(l.Len()) // bytes.Reader, strings.Reader, bytes.Buffer
+	}
+	buf, err := readAll(r, name, hint, o.maxBytes)
 	if err != nil {
 		return nil, err
 	}
@@ -462,10 +466,10 @@ func parse(buf []byte, name string, o resolved) (*Data, error) {
 // readMeta reads the metadata and comment lines and returns the header line.
 func (p *parser) readMeta(d *Data) ([]byte, error) {
 	seen := map[string]int{}
-	for {
+	for lines := 0; ; lines++ {
 		line, ok := p.lr.nextRow()
 		if !ok {
-			if len(seen) == 0 && isBlank(p.lr.buf) {
+			if lines == 0 {
 				return nil, p.errf(0, "the file holds only blank lines; expected metadata lines, a header line and data rows")
 			}
 			return nil, p.errf(0, "no header line: the file ends after its metadata and comments")
@@ -689,7 +693,7 @@ func (r *rowReader) row(k int) (int, string) {
 		line, _ := lr.nextRow()
 		if i == k {
 			tCell, _, _ := splitRow(line, r.sep, r.tc.index, r.tc.index, r.tc.index)
-			return lr.num, string(trim(tCell, r.sep))
+			return lr.num, truncate(trim(tCell, r.sep))
 		}
 	}
 }
@@ -718,18 +722,34 @@ func (r *rowReader) checkAxis(tr *steps.Trace, unit timeUnit) error {
 		return p.errf(0, "the time axis from %g to %g min spans more than a float64 can hold", t[0], t[len(t)-1])
 	}
 	lim := p.o.tol * mean
+	first, firstDev, worst, worstDev := 0, 0.0, 0, 0.0
 	for i := 1; i < len(t); i++ {
-		d := t[i] - t[i-1]
-		if math.Abs(d-mean) <= lim {
+		dev := math.Abs(t[i] - t[i-1] - mean)
+		if dev <= lim {
 			continue
 		}
-		line, text := r.row(i)
-		prevLine, prev := r.row(i - 1)
-		return p.errf(line, "the interval from time %s (line %d) to %s is %.6g %s but the mean interval is %.6g %s, and intervals may differ from it by %g %%; "+
-			"the times must be evenly spaced: look for missing or repeated rows, or write the times with more digits",
-			prev, prevLine, text, unit.fromMinutes(d), unit.name, unit.fromMinutes(mean), unit.name, p.o.tol*100)
+		if first == 0 {
+			first, firstDev = i, dev
+		}
+		if dev > worstDev {
+			worst, worstDev = i, dev
+		}
 	}
-	return nil
+	if first == 0 {
+		return nil
+	}
+	line, text := r.row(first)
+	prevLine, prev := r.row(first - 1)
+	// A single gap shifts the mean so that every interval may be off; then
+	// the first offender is not where the gap is, so name that place too.
+	where := ""
+	if worstDev > 1.5*firstDev {
+		worstLine, _ := r.row(worst)
+		where = fmt.Sprintf(" (the largest deviation is at line %d)", worstLine)
+	}
+	return p.errf(line, "the interval from time %s (line %d) to %s is %.6g %s but the mean interval is %.6g %s, and intervals may differ from it by %g %%%s; "+
+		"the times must be evenly spaced: look for missing or repeated rows, or write the times with more digits",
+		prev, prevLine, text, unit.fromMinutes(t[first]-t[first-1]), unit.name, unit.fromMinutes(mean), unit.name, p.o.tol*100, where)
 }
 
 // fromMinutes converts a time in minutes to unit u, for messages.

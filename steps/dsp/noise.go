@@ -1,6 +1,7 @@
 package dsp
 
 import (
+	"cmp"
 	"math"
 	"slices"
 )
@@ -20,16 +21,23 @@ func NoiseBlocks(y []float64, block int) (sd, peakToPeak float64) {
 //
 // Each span of at least block points is cut into ⌊len/block⌋ consecutive
 // blocks of equal length (within one point), so that no point is left over.
-// A least-squares straight line is removed from every block; the block's SD
-// (residual sum of squares over n−2) and range (max − min of the residuals)
-// are computed, and the medians over all blocks are returned. The medians
-// ignore the minority of blocks that hold a peak. Spans shorter than block
-// are left out, unless no span reaches block points: then the longest span
-// is one block on its own. Both results are 0 when nothing is left to
-// measure (fewer than three points). block values below 3 count as 3.
+// A least-squares straight line is removed from every block, and the
+// block's SD (residual sum of squares over m−2 for m points) and range
+// (max − min of the residuals) are computed. Blocks that hold a peak have a
+// larger SD than the noise-only ones, which cluster tightly (the relative
+// standard error of an SD is about 1/√(2(m−2))). So the quiet blocks are
+// those whose SD is at most q·(1 + 4/√(2(block−2))), q being the lower
+// quartile of all block SDs, and the results are the medians of the quiet
+// blocks' SDs and ranges. This stays right while up to three blocks in four
+// hold a peak, where a plain median would fail past one in two.
+//
+// Spans shorter than block are left out, unless no span reaches block
+// points: then the longest span is one block on its own. Both results are 0
+// when nothing is left to measure (fewer than three points). block values
+// below 3 count as 3.
 func NoiseSpans(y []float64, block int, spans []Span) (sd, peakToPeak float64) {
 	block = max(block, 3)
-	var sds, ranges []float64
+	var stats []blockStat
 	longest := Span{}
 	for _, s := range spans {
 		s.Lo, s.Hi = max(s.Lo, 0), min(s.Hi, len(y))
@@ -41,14 +49,28 @@ func NoiseSpans(y []float64, block int, spans []Span) (sd, peakToPeak float64) {
 		for b := range nb {
 			lo, hi := s.Lo+b*n/nb, s.Lo+(b+1)*n/nb
 			d, r := detrendedStats(y[lo:hi])
-			sds, ranges = append(sds, d), append(ranges, r)
+			stats = append(stats, blockStat{d, r})
 		}
 	}
-	if len(sds) == 0 {
+	if len(stats) == 0 {
 		return NoiseWindow(y[longest.Lo:longest.Hi])
+	}
+	slices.SortFunc(stats, func(a, b blockStat) int { return cmp.Compare(a.sd, b.sd) })
+	limit := stats[(len(stats)-1)/4].sd * (1 + 4/math.Sqrt(2*float64(block-2)))
+	quiet := 1
+	for quiet < len(stats) && stats[quiet].sd <= limit {
+		quiet++
+	}
+	sds := make([]float64, quiet)
+	ranges := make([]float64, quiet)
+	for i, st := range stats[:quiet] {
+		sds[i], ranges[i] = st.sd, st.rng
 	}
 	return median(sds), median(ranges)
 }
+
+// blockStat holds the detrended SD and range of one noise block.
+type blockStat struct{ sd, rng float64 }
 
 // NoiseWindow measures the noise of one quiet stretch of a signal: the SD
 // (residual sum of squares over n−2) and the range (max − min) of y after

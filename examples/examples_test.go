@@ -1,0 +1,28 @@
+package examples
+
+import (
+	"bytes"
+	"io/fs"
+	"testing"
+
+	"lotgate/examples/synth"
+)
+
+// The committed demo data must be exactly what the generator makes, so the
+// demo can always be traced back to its synthetic truth.
+func TestDataMatchesGenerator(t *testing.T) {
+	want, _ := fs.Glob(FS, "data/*.csv")
+	demo := synth.Demo()
+	if len(want) != len(demo) {
+		t.Fatalf("%d committed files, generator makes %d", len(want), len(demo))
+	}
+	for _, c := range demo {
+		got, err := FS.ReadFile("data/" + c.File)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(got, c.Render()) {
+			t.Errorf("data/%s differs from the generator's output; run go generate ./examples", c.File)
+		}
+	}
+}
