@@ -38,7 +38,7 @@ type Pipeline struct {
 	Limits []*LimitDef
 
 	// stepSettings parallels Steps: each step's settings as used.
-	stepSettings [][]Setting
+	stepSettings  [][]Setting
 	inputSettings []Setting
 }
 
@@ -133,7 +133,7 @@ func (p *Pipeline) decode(body hcl.Body, src []byte) hcl.Diagnostics {
 		case "pipeline", "input":
 			if prev := once[b.Type]; prev != nil {
 				diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate " + b.Type + " block",
-					Detail: fmt.Sprintf("a pipeline has one %s block; the first is at line %d", b.Type, prev.DefRange.Start.Line),
+					Detail:  fmt.Sprintf("a pipeline has one %s block; the first is at line %d", b.Type, prev.DefRange.Start.Line),
 					Subject: b.DefRange.Ptr()})
 				continue
 			}

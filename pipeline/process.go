@@ -121,9 +121,9 @@ func units(signal string) Units {
 }
 
 func (p *Pipeline) method() Method {
-	m := Method{Name: p.Name, Revision: p.Revision, Description: p.Description, Input: p.inputSettings}
+	m := Method{Name: p.Name, Revision: p.Revision, Description: p.Description, Input: settingsMap(p.inputSettings)}
 	for i, st := range p.Steps {
-		m.Steps = append(m.Steps, StepRec{Step: st.Name(), Settings: p.stepSettings[i]})
+		m.Steps = append(m.Steps, StepRec{Step: st.Name(), Settings: settingsMap(p.stepSettings[i])})
 	}
 	return m
 }

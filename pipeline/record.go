@@ -57,17 +57,17 @@ type MetaRec struct {
 
 // Method describes the pipeline that made the record, every setting included.
 type Method struct {
-	Name        string    `json:"name"`
-	Revision    int       `json:"revision"`
-	Description string    `json:"description"`
-	Input       []Setting `json:"input"`
-	Steps       []StepRec `json:"steps"`
+	Name        string         `json:"name"`
+	Revision    int            `json:"revision"`
+	Description string         `json:"description"`
+	Input       map[string]any `json:"input"`
+	Steps       []StepRec      `json:"steps"`
 }
 
 // StepRec is one step as run.
 type StepRec struct {
-	Step     string    `json:"step"`
-	Settings []Setting `json:"settings"`
+	Step     string         `json:"step"`
+	Settings map[string]any `json:"settings"`
 }
 
 // Units names the units of the record's numbers.

@@ -105,8 +105,8 @@ func decodeBaseline(a *attrs) steps.Step {
 			}
 			return ""
 		}),
-		Iterations: a.integer("iterations", 30, intRange("iterations", 1, 1000)),
-		Tolerance:  a.num("tolerance", 0, nonNegative("tolerance")),
+		Iterations: a.integer("iterations", 50, intRange("iterations", 1, 1000)),
+		Tolerance:  a.num("tolerance", 0.01, nonNegative("tolerance")),
 		Clip:       a.num("clip", 0, nil),
 	}
 }
@@ -128,11 +128,11 @@ func decodeWindow(parent *attrs, b *hcl.Block) steps.Window {
 
 func decodeDetect(a *attrs) steps.Step {
 	d := &steps.Detect{
-		MinSNR:      a.num("min_snr", 3, positive("min_snr")),
-		MinWidth:    a.num("min_width", 0, nonNegative("min_width")),
-		MinHeight:   a.num("min_height", 0, nonNegative("min_height")),
-		MinArea:     a.num("min_area", 0, nonNegative("min_area")),
-		NoiseBlock:  a.num("noise_block", 1.0, positive("noise_block")),
+		MinSNR:     a.num("min_snr", 3, positive("min_snr")),
+		MinWidth:   a.num("min_width", 0, nonNegative("min_width")),
+		MinHeight:  a.num("min_height", 0, nonNegative("min_height")),
+		MinArea:    a.num("min_area", 0, nonNegative("min_area")),
+		NoiseBlock: a.num("noise_block", 1.0, positive("noise_block")),
 		SlopeWindow: a.integer("slope_window", 0, func(n int) string {
 			if n != 0 && (n < 5 || n > 101 || n%2 == 0) {
 				return fmt.Sprintf("slope_window must be 0 (automatic) or an odd number of points from 5 to 101, not %d", n)

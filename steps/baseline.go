@@ -35,6 +35,15 @@ func (b *Baseline) Run(_ context.Context, r *Run) error {
 	if err != nil {
 		return fmt.Errorf("baseline: %w", err)
 	}
+	if b.Clip >= 0 {
+		clip := b.Clip
+		if clip == 0 {
+			clip = dsp.DefaultClip
+		}
+		if _, err := dsp.Centre(r.Processed, z, b.Lambda, clip, b.Iterations); err != nil {
+			return fmt.Errorf("baseline: %w", err)
+		}
+	}
 	r.Baseline = z
 	r.Warnings = appendIf(r.Warnings, it >= b.Iterations && b.Iterations > 0,
 		fmt.Sprintf("baseline: asymmetric least squares stopped at the iteration limit of %d (its weights may not have settled)", b.Iterations))

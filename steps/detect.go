@@ -41,10 +41,14 @@ const (
 // Noise. With NoiseWindow set, the noise is that one stretch: SD and range h
 // (max − min) of y there after removing its least-squares straight line
 // (method "window"). Otherwise y outside the Ignore windows is cut into
-// blocks of NoiseBlock minutes (1 min when 0); a straight line is removed
-// from each block and the medians of the blocks' SDs and ranges are taken
-// (method "blocks"), so that the minority of blocks holding a peak does not
-// count. A noise range of 0 (a noise-free synthetic signal) is replaced by
+// blocks of NoiseBlock minutes (1 min when 0); within each block, the tenths
+// that hold a peak (a detrended SD well above that of the quietest quarter
+// of all tenths) are set aside with their neighbours, a straight line is
+// fitted to the rest and removed, and the medians over the blocks of the
+// residuals' SDs and ranges are taken (method "blocks"; dsp.NoiseSpans has
+// the details). The estimate stays right when every block touches a peak,
+// as long as peaks with their tails cover less than about half of each
+// block. A noise range of 0 (a noise-free synthetic signal) is replaced by
 // 1e-9 of the largest |y| (1 when y is all zero), and a zero SD by a sixth
 // of the range, with a warning, so that no ratio is ever infinite.
 //
@@ -52,15 +56,15 @@ const (
 // fit) over SlopeWindow points; the auto choice, for 0, is about a quarter
 // of the half-height width, in samples, of the tallest sample outside the
 // Ignore windows, odd and between 5 and 21. Every sample where the slope
-// turns from positive to zero or negative is a candidate; its apex is the
-// highest sample within half a slope window of it (the first on ties,
-// never the first or last sample of the trace). A candidate is kept when its
-// apex sample y_a is above the noise level (one noise SD) and 2·y_a/h is at
-// least MinSNR.
+// turns from positive to zero or negative, and s, the centred moving
+// average of y over the slope window, is above the noise level (one noise
+// SD), is a candidate; its apex is the highest sample within half a slope
+// window of it (the first on ties, never the first or last sample of the
+// trace). A candidate is kept when its apex sample y_a is above the noise
+// level and 2·y_a/h is at least MinSNR.
 //
-// Merging. Let s be the centred moving average of y over the slope window,
-// and the valley between two neighbouring candidates the lowest s between
-// them. Where a valley falls to the noise level the candidates lie on
+// Merging. The valley between two neighbouring candidates is the lowest s
+// between them. Where a valley falls to the noise level the candidates lie on
 // separate stretches above the baseline and never merge. Otherwise each
 // candidate is ranked by its apex height (the earlier one wins a tie), and
 // its prominence is its height minus the higher of the two lowest valleys
@@ -127,7 +131,7 @@ func (d *Detect) Run(ctx context.Context, r *Run) error {
 			return fmt.Errorf("detect: the times must increase, but sample %d is at %g min after %g min", i+1, t[i], t[i-1])
 		}
 	}
-	y := r.Corrected()
+	y := corrected(r)
 	for i, v := range y {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			return fmt.Errorf("detect: the baseline-corrected signal at %g min (sample %d) is %g", t[i], i+1, v)
@@ -171,7 +175,7 @@ func (d *Detect) Run(ctx context.Context, r *Run) error {
 
 	level := noise.SD
 	h := noise.PeakToPeak
-	apexes := candidates(y, slope, w/2, level, h, d.MinSNR)
+	apexes := candidates(y, s, slope, w/2, level, h, d.MinSNR)
 	apexes = dropWiggles(y, s, apexes, level, max(d.MinSNR, minValleySNR)*h/2)
 	if err := ctx.Err(); err != nil {
 		return err
@@ -318,14 +322,15 @@ func autoSlopeWindow(y []float64, free []dsp.Span) int {
 }
 
 // candidates returns the apex samples where the slope turns from positive to
-// non-positive, each moved to the highest y within half samples (the first
-// on ties, never an end sample), without repeats, in increasing order, and
-// kept when above level with 2·y/h ≥ minSNR.
-func candidates(y, slope []float64, half int, level, h, minSNR float64) []int {
+// non-positive and the moving average s is above level, each moved to the
+// highest y within half samples (the first on ties, never an end sample),
+// without repeats, in increasing order, and kept when above level with
+// 2·y/h ≥ minSNR.
+func candidates(y, s, slope []float64, half int, level, h, minSNR float64) []int {
 	n := len(y)
 	var out []int
 	for i := 1; i < n; i++ {
-		if !(slope[i-1] > 0 && slope[i] <= 0) {
+		if !(slope[i-1] > 0 && slope[i] <= 0 && s[i] > level) {
 			continue
 		}
 		a := max(i-half, 1)

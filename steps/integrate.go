@@ -88,7 +88,7 @@ func (s *Integrate) Run(ctx context.Context, r *Run) error {
 			return fmt.Errorf("integrate: peak %d has samples start %d, apex %d, end %d; they must satisfy 0 ≤ start < apex < end < %d", i+1, p.Start, p.Apex, p.End, n)
 		}
 	}
-	y := r.Corrected()
+	y := corrected(r)
 	t := r.Trace.Time
 	for i := range r.Peaks {
 		p := &r.Peaks[i]
@@ -150,6 +150,15 @@ func timeAt(t []float64, pos float64) float64 {
 		return t[len(t)-1]
 	}
 	return t[i] + (pos-float64(i))*(t[i+1]-t[i])
+}
+
+// corrected returns the baseline-corrected working signal for reading only:
+// Processed itself when there is no baseline, else r.Corrected().
+func corrected(r *Run) []float64 {
+	if r.Baseline == nil {
+		return r.Processed
+	}
+	return r.Corrected()
 }
 
 // finite returns x, or 0 when x is NaN or infinite.

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"flag"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -25,16 +26,29 @@ func runCLI(t *testing.T, args ...string) (code int, stdout, stderr string) {
 	return code, o.String(), e.String()
 }
 
-// demoDir runs the demo into a fresh folder and returns it.
-func demoDir(t *testing.T) string {
-	t.Helper()
-	dir := t.TempDir()
-	code, out, errs := runCLI(t, "demo", "-o", dir)
-	if code != exitOK {
-		t.Fatalf("demo exit %d\n%s\n%s", code, out, errs)
+// shared is the folder of one demo run made with SOURCE_DATE_EPOCH = epoch,
+// shared by the tests (writing outputs is fsync-bound, so it is made once).
+var shared string
+
+func TestMain(m *testing.M) {
+	flag.Parse()
+	dir, err := os.MkdirTemp("", "lotgate-demo-")
+	if err != nil {
+		panic(err)
 	}
-	return dir
+	os.Setenv("SOURCE_DATE_EPOCH", epoch)
+	var o, e bytes.Buffer
+	if code := run([]string{"demo", "-o", dir}, &o, &e); code != exitOK {
+		panic(fmt.Sprintf("demo exit %d\n%s\n%s", code, o.String(), e.String()))
+	}
+	os.Unsetenv("SOURCE_DATE_EPOCH")
+	shared = dir
+	code := m.Run()
+	os.RemoveAll(dir)
+	os.Exit(code)
 }
+
+var demoRecords = []string{"T998-26-1141.json", "T998-26-1142.json", "blank-26-1141.json"}
 
 func readRecord(t *testing.T, path string) (*pipeline.Record, []byte) {
 	t.Helper()
@@ -53,10 +67,10 @@ func readRecord(t *testing.T, path string) (*pipeline.Record, []byte) {
 // checked for determinism below), and their verdicts are the scenario's:
 // lot 1141 passes, lot 1142 fails on ethylbenzene, the blank is clean.
 func TestDemoGolden(t *testing.T) {
-	t.Setenv("SOURCE_DATE_EPOCH", epoch)
-	dir := demoDir(t)
-	want := map[string]string{"T998-26-1141.json": "pass", "T998-26-1142.json": "fail", "blank-26-1141.json": "pass"}
-	for name, verdict := range want {
+	dir := shared
+	want := []string{"pass", "fail", "pass"}
+	for i, name := range demoRecords {
+		verdict := want[i]
 		rec, _ := readRecord(t, filepath.Join(dir, name))
 		if rec.Verdict != verdict {
 			t.Errorf("%s: verdict %s, want %s", name, rec.Verdict, verdict)
@@ -89,13 +103,19 @@ func TestDemoGolden(t *testing.T) {
 	}
 }
 
-// Same input and pipeline, same record, byte for byte (trace included).
+// Same input and pipeline, same record, byte for byte (trace included), here
+// from run with one worker against the demo's run with two.
 func TestDeterministic(t *testing.T) {
 	t.Setenv("SOURCE_DATE_EPOCH", epoch)
-	a, b := demoDir(t), demoDir(t)
-	for _, name := range []string{"T998-26-1141.json", "T998-26-1142.json", "blank-26-1141.json"} {
-		_, x := readRecord(t, filepath.Join(a, name))
-		_, y := readRecord(t, filepath.Join(b, name))
+	out := t.TempDir()
+	inputs, _ := filepath.Glob(filepath.Join(shared, "input", "*.csv"))
+	args := append([]string{"run", "--workers", "1", "-p", filepath.Join(shared, "input", "toluene-release.hcl"), "-o", out}, inputs...)
+	if code, _, e := runCLI(t, args...); code != exitVerdict {
+		t.Fatalf("run: exit %d (the demo holds a failing lot, so 1 is expected): %s", code, e)
+	}
+	for _, name := range demoRecords {
+		_, x := readRecord(t, filepath.Join(shared, name))
+		_, y := readRecord(t, filepath.Join(out, name))
 		if !bytes.Equal(x, y) {
 			t.Errorf("%s differs between two runs", name)
 		}
@@ -116,9 +136,8 @@ func writeFile(t *testing.T, dir, name, content string) string {
 // nothing half-written is left behind.
 func TestRunBadInputs(t *testing.T) {
 	t.Setenv("SOURCE_DATE_EPOCH", epoch)
-	demo := demoDir(t)
-	pipe := filepath.Join(demo, "input", "toluene-release.hcl")
-	good := filepath.Join(demo, "input", "T998-26-1141.csv")
+	pipe := filepath.Join(shared, "input", "toluene-release.hcl")
+	good := filepath.Join(shared, "input", "T998-26-1141.csv")
 	header := "time (s),signal (pA)\n"
 	rows := func(n int, f func(i int) string) string {
 		var b strings.Builder
@@ -138,7 +157,7 @@ func TestRunBadInputs(t *testing.T) {
 		{"inf.csv", header + rows(20, even) + "20.00,+Inf\n", ":22:"},
 		{"decreasing.csv", header + rows(20, even) + "19.00,1.0\n", ":22:"},
 		{"repeated.csv", header + rows(20, even) + "19.00,1.0\n", ":22:"},
-		{"uneven.csv", header + rows(20, even) + "25.00,1.0\n", ":22:"},
+		{"uneven.csv", header + rows(20, even) + "25.00,1.0\n", "evenly spaced"},
 		{"few-points.csv", header + rows(5, even), "5"},
 		{"garbage.csv", "\x00\x01\x02\xff\xfe binary", "garbage.csv"},
 	}
@@ -208,9 +227,8 @@ func TestUsageAndPipelineErrors(t *testing.T) {
 // A record is never overwritten silently: different content is refused
 // unless --replace is given; identical content is left alone.
 func TestNoSilentOverwrite(t *testing.T) {
-	demo := demoDir(t)
-	pipe := filepath.Join(demo, "input", "toluene-release.hcl")
-	data := filepath.Join(demo, "input", "T998-26-1141.csv")
+	pipe := filepath.Join(shared, "input", "toluene-release.hcl")
+	data := filepath.Join(shared, "input", "T998-26-1141.csv")
 	out := t.TempDir()
 	t.Setenv("SOURCE_DATE_EPOCH", "1")
 	if code, _, e := runCLI(t, "run", "-p", pipe, "-o", out, data); code != exitOK {

@@ -119,7 +119,7 @@ func Demo() []Chromatogram {
 		return peak{area: mainArea * pct / 100, mu: mu, sigma: sigma, tau: sigma * 0.3}
 	}
 	pass := append(mainAndSolvent(mainArea),
-		imp(0.0040, 3.62, 0.012),  // benzene
+		imp(0.0060, 3.62, 0.012),  // benzene
 		imp(0.0080, 4.21, 0.013),  // unknown (an aliphatic)
 		imp(0.0150, 5.08, 0.015),  // unknown
 		imp(0.0060, 7.92, 0.019),  // unknown
@@ -130,9 +130,9 @@ func Demo() []Chromatogram {
 		imp(0.0030, 12.80, 0.024), // unknown below the reporting threshold
 	)
 	fail := append(mainAndSolvent(mainArea),
-		imp(0.0050, 3.62, 0.012),
+		imp(0.0070, 3.62, 0.012),
 		imp(0.0110, 4.21, 0.013),
-		imp(0.0310, 5.08, 0.015),
+		imp(0.0210, 5.08, 0.015),
 		imp(0.0740, 9.10, 0.020), // ethylbenzene over its 0.050 % limit
 		imp(0.0140, 9.48, 0.021),
 		imp(0.0200, 9.70, 0.021),

@@ -28,6 +28,7 @@ func TestParseNumber(t *testing.T) {
 		{"0e999999", true},
 		{"0x1p-2", false}, {"1_000", false}, {"Inf", false}, {"-nan", false},
 		{"", false}, {"-", false}, {".", false}, {"1e", false}, {"1e+", false},
+		{"0.1234567890123456789012345678901234567890123456789012345678901234567890", false},
 		{"1.2.3", false}, {"--1", false}, {"1e400", false}, {"1e-400", false},
 	}
 	for _, tc := range tests {

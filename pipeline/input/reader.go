@@ -59,12 +59,14 @@ type Data struct {
 
 // Error is a problem with the input, with its place.
 type Error struct {
+	// File is the path or name of the input.
 	File string
 	// Line is the 1-based line number, or 0 when the problem concerns the
 	// whole file.
 	Line int
-	Msg  string
-	err  error
+	// Msg says what is wrong and, where useful, what to do.
+	Msg string
+	err error
 }
 
 // Error formats the problem as "FILE:LINE: MSG", or "FILE: MSG" without a
@@ -119,6 +121,9 @@ func Read(r io.Reader, name string, opt Options) (*Data, error) {
 	var hint int64
 	if l, ok := r.(interface{ Len() int }); ok {
 		hint = int64(l.Len()) // bytes.Reader, strings.Reader, bytes.Buffer
+		if hint > o.maxBytes {
+			return nil, tooLarge(name, hint, o.maxBytes)
+		}
 	}
 	buf, err := readAll(r, name, hint, o.maxBytes)
 	if err != nil {
@@ -251,24 +256,26 @@ func ioError(name, what string, err error) *Error {
 	return &Error{File: name, Msg: what + ": " + msg.Error(), err: err}
 }
 
+// tooLarge reports a file over the size limit; size < 0 means unknown.
 func tooLarge(name string, size, limit int64) *Error {
-	what := fmt.Sprintf("is %d bytes", size)
-	if size < 0 {
-		what = "is"
+	what := "is"
+	if size >= 0 {
+		what = fmt.Sprintf("is %d bytes,", size)
 	}
 	return &Error{File: name, Msg: fmt.Sprintf(
-		"%s larger than the size limit of %d bytes; raise the limit if this really is a data file",
-		what, limit)}
+		"%s over the size limit of %d bytes; raise the limit if this really is a data file", what, limit)}
 }
 
 // readAll reads r to the end, refusing more than limit bytes. hint is the
 // expected size, 0 if unknown.
 func readAll(r io.Reader, name string, hint, limit int64) ([]byte, error) {
-	n := hint + 1 // one more, to see EOF without growing
-	if hint <= 0 {
-		n = 64 << 10
+	n := int64(64 << 10)
+	if hint > 0 {
+		n = hint + 1 // one more, to see EOF without growing
 	}
-	n = min(n, limit+1)
+	if n > limit {
+		n = limit + 1
+	}
 	buf := make([]byte, 0, n)
 	for {
 		if len(buf) == cap(buf) {

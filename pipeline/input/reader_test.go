@@ -3,6 +3,7 @@ package input
 import (
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"math"
 	"os"
@@ -230,6 +231,8 @@ func TestReadRejects(t *testing.T) {
 		{name: "negative size limit", text: head + good, opt: Options{MaxBytes: -1}, msg: "size limit -1 is negative"},
 		{name: "absent column", text: "time (min),FID (pA),oven\n" + good, opt: Options{SignalColumn: "TCD"}, line: 1,
 			msg: `no signal column "TCD" in the header; its columns are "time (min)", "FID (pA)", "oven"`},
+		{name: "absent time column", text: head + good, opt: Options{TimeColumn: "retention"}, line: 1,
+			msg: `no time column "retention" in the header; its columns are "time (min)", "signal (pA)"`},
 		{name: "ambiguous column", text: "time (min),FID (pA),FID (mV)\n" + good, opt: Options{SignalColumn: "fid"}, line: 1,
 			msg: `ambiguous|column 2 "FID (pA)"|column 3 "FID (mV)"`},
 		{name: "same column twice", text: head + good, opt: Options{SignalColumn: "time"}, line: 1, msg: "time and signal are both column 1"},
@@ -239,9 +242,12 @@ func TestReadRejects(t *testing.T) {
 		{name: "overflowing number", text: head + "0,1e400\n", line: 2, msg: "signal 1e400 is out of range"},
 		{name: "not a number", text: head + good + "0.2,12..5\n", line: 22, msg: `the signal cell "12..5" is not a number (column 2 "signal (pA)")`},
 		{name: "long cell is truncated", text: head + "0," + long + "\n", line: 2, msg: `"` + long[:40] + `..." is not a number`},
+		{name: "long cell is truncated between characters", text: head + "0," + strings.Repeat("€", 30) + "\n", line: 2,
+			msg: `"` + strings.Repeat("€", 13) + `..." is not a number`},
 		{name: "empty cell", text: head + "0, \n", line: 2, msg: `the signal cell is empty (column 2 "signal (pA)")`},
 		{name: "too few cells", text: head + "0,1\n0.01\n", line: 3, msg: "the row has 1 cell separated by commas but the signal is in column 2"},
 		{name: "row with the wrong separator", text: "time (min)\tsignal (pA)\n0;1\n", line: 2, msg: "1 cell separated by tabs"},
+		{name: "too few cells with semicolons", text: "time (min);signal (pA)\n0;1\n0,1\n", line: 3, msg: "1 cell separated by semicolons"},
 		{name: "too few cells for a time column on the right", text: "signal,x,time\n1,2,0\n1,2\n", opt: Options{TimeColumn: "time", SignalColumn: "signal"}, line: 3,
 			msg: "has 2 cells|the time is in column 3"},
 		{name: "decimal comma with tab separator", text: "time (min)\tsignal\n0,5\t1\n", line: 2, msg: `the time cell "0,5" is not a number`},
@@ -256,6 +262,8 @@ func TestReadRejects(t *testing.T) {
 			msg: "interval from time 0 (line 3) to 0.01 is 0.01 min|mean interval is 0.0105556 min|largest deviation is at line 8"},
 		{name: "missing row with a looser tolerance", text: head + gap, opt: Options{SpacingTolerance: 0.5}, line: 7,
 			msg: "interval from time 0.04 (line 6) to 0.06 is 0.02 min|by 50 %;"},
+		{name: "uneven spacing in seconds", text: "time (s),signal\n" + strings.Replace(rows(20, 0, 0.5, ",", false), "\n4,", "\n4.1,", 1), line: 10,
+			msg: "interval from time 3.5 (line 9) to 4.1 is 0.6 s but the mean interval is 0.5 s"},
 		{name: "too few points", text: head + rows(10, 0, 0.01, ",", false), msg: "only 10 data rows; at least 16 are needed"},
 		{name: "too few points for a higher minimum", text: head + good, opt: Options{MinPoints: 21}, msg: "only 20 data rows; at least 21"},
 		// 4e306 h is 2.4e308 min, beyond the largest float64, about 1.8e308
@@ -350,7 +358,7 @@ func TestReadFile(t *testing.T) {
 
 	_, err = ReadFile(path, Options{MaxBytes: 100})
 	var e *Error
-	if !errors.As(err, &e) || !strings.Contains(e.Msg, fmt.Sprintf("is %d bytes larger than the size limit of 100 bytes", len(text))) {
+	if !errors.As(err, &e) || !strings.Contains(e.Msg, fmt.Sprintf("is %d bytes, over the size limit of 100 bytes", len(text))) {
 		t.Errorf("size limit: %v", err)
 	}
 
@@ -362,24 +370,63 @@ func TestReadFile(t *testing.T) {
 		t.Errorf("path repeated in %q", err)
 	}
 
+	_, err = ReadFile(path, Options{TimeUnit: "fortnight"})
+	if !errors.As(err, &e) || e.File != path || !strings.Contains(e.Msg, "reader options") {
+		t.Errorf("bad options: %v", err)
+	}
+
 	_, err = ReadFile(dir, Options{})
 	if !errors.As(err, &e) || !strings.Contains(e.Msg, "is a directory") {
 		t.Errorf("directory: %v", err)
 	}
 }
 
-// TestReadGuardsSize checks the limit on a reader whose size is unknown.
+// onlyReader hides every method of a reader but Read, so that its size is
+// unknown.
+type onlyReader struct{ r io.Reader }
+
+func (o onlyReader) Read(p []byte) (int, error) { return o.r.Read(p) }
+
+// TestReadGuardsSize checks the size limit on readers of known and unknown
+// size.
 func TestReadGuardsSize(t *testing.T) {
-	text := "time (min),signal\n" + rows(1000, 0, 0.01, ",", false)
+	// More than the 64 KiB first read of a reader of unknown size.
+	text := "time (min),signal\n" + rows(10000, 0, 0.01, ",", false)
 	for _, limit := range []int64{10, int64(len(text)) - 1} {
-		_, err := Read(strings.NewReader(text), "pipe", Options{MaxBytes: limit})
-		want := fmt.Sprintf("pipe: is larger than the size limit of %d bytes", limit)
+		_, err := Read(onlyReader{strings.NewReader(text)}, "pipe", Options{MaxBytes: limit})
+		want := fmt.Sprintf("pipe: is over the size limit of %d bytes", limit)
 		if err == nil || !strings.HasPrefix(err.Error(), want) {
-			t.Errorf("limit %d: error %v, want %q", limit, err, want)
+			t.Errorf("limit %d, unknown size: error %v, want %q", limit, err, want)
+		}
+		_, err = Read(strings.NewReader(text), "mem", Options{MaxBytes: limit})
+		want = fmt.Sprintf("mem: is %d bytes, over the size limit of %d bytes", len(text), limit)
+		if err == nil || !strings.HasPrefix(err.Error(), want) {
+			t.Errorf("limit %d, known size: error %v, want %q", limit, err, want)
 		}
 	}
-	if _, err := Read(strings.NewReader(text), "pipe", Options{MaxBytes: int64(len(text))}); err != nil {
-		t.Errorf("file of exactly the limit: %v", err)
+	for _, r := range []io.Reader{strings.NewReader(text), onlyReader{strings.NewReader(text)}} {
+		if _, err := Read(r, "pipe", Options{MaxBytes: int64(len(text))}); err != nil {
+			t.Errorf("file of exactly the limit: %v", err)
+		}
+	}
+}
+
+// failingReader fails after its text.
+type failingReader struct{ r io.Reader }
+
+func (f failingReader) Read(p []byte) (int, error) {
+	n, err := f.r.Read(p)
+	if err == io.EOF {
+		err = errors.New("device went away")
+	}
+	return n, err
+}
+
+func TestReadIOError(t *testing.T) {
+	_, err := Read(failingReader{strings.NewReader("time,signal\n")}, "pipe", Options{})
+	want := "pipe: cannot read the file: device went away"
+	if err == nil || err.Error() != want {
+		t.Errorf("error %v, want %q", err, want)
 	}
 }
 
