@@ -7,6 +7,7 @@ import (
 	"github.com/hashicorp/hcl/v2"
 
 	"lotgate/steps"
+	"lotgate/steps/dsp"
 )
 
 // stepKind describes one step block: its schema, the steps that must come
@@ -107,7 +108,12 @@ func decodeBaseline(a *attrs) steps.Step {
 		}),
 		Iterations: a.integer("iterations", 50, intRange("iterations", 1, 1000)),
 		Tolerance:  a.num("tolerance", 0.01, nonNegative("tolerance")),
-		Clip:       a.num("clip", 0, nil),
+		Clip: a.num("clip", dsp.DefaultClip, func(x float64) string {
+			if x == 0 {
+				return "clip must not be 0: give the clipping level in noise SDs (3 by default), or a negative number for textbook AsLS"
+			}
+			return ""
+		}),
 	}
 }
 
@@ -122,7 +128,6 @@ func decodeWindow(parent *attrs, b *hcl.Block) steps.Window {
 		a.fail("to", fmt.Sprintf("to (%g min) must be later than from (%g min)", w.To, w.From))
 	}
 	parent.diags = append(parent.diags, a.diags...)
-	parent.record(b.Type, map[string]float64{"from": w.From, "to": w.To})
 	return w
 }
 
@@ -140,12 +145,19 @@ func decodeDetect(a *attrs) steps.Step {
 			return ""
 		}),
 	}
+	var ignore []map[string]float64
 	for _, b := range a.blocks("ignore") {
-		d.Ignore = append(d.Ignore, decodeWindow(a, b))
+		w := decodeWindow(a, b)
+		d.Ignore = append(d.Ignore, w)
+		ignore = append(ignore, map[string]float64{"from": w.From, "to": w.To})
+	}
+	if len(ignore) > 0 {
+		a.record("ignore", ignore)
 	}
 	if nb := a.blocks("noise"); len(nb) > 0 {
 		w := decodeWindow(a, nb[0])
 		d.NoiseWindow = &w
+		a.record("noise", map[string]float64{"from": w.From, "to": w.To})
 		for _, extra := range nb[1:] {
 			a.diags = append(a.diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate noise block",
 				Detail: "detect takes one noise window", Subject: extra.DefRange.Ptr()})

@@ -15,8 +15,10 @@ type Baseline struct {
 	Asymmetry  float64
 	Iterations int
 	Tolerance  float64
-	// Clip is passed to dsp.AsLS (points this many noise SDs above the
-	// baseline get no weight); a negative value gives textbook AsLS.
+	// Clip is the clipping level in noise SDs: points further above the
+	// baseline get no weight in dsp.AsLS, and the baseline is then centred
+	// in the noise by dsp.Centre. A negative value gives textbook AsLS
+	// (no clipping, no centring); 0 selects dsp.DefaultClip.
 	Clip float64
 }
 

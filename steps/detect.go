@@ -131,7 +131,7 @@ func (d *Detect) Run(ctx context.Context, r *Run) error {
 			return fmt.Errorf("detect: the times must increase, but sample %d is at %g min after %g min", i+1, t[i], t[i-1])
 		}
 	}
-	y := corrected(r)
+	y := correctedView(r)
 	for i, v := range y {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			return fmt.Errorf("detect: the baseline-corrected signal at %g min (sample %d) is %g", t[i], i+1, v)

@@ -156,7 +156,13 @@ func TestDetectFindsPeaksAboveSNR10(t *testing.T) {
 		r := pkRun(30, 20, shapes, nil, 1, seed)
 		pkAnalyse(t, &Detect{MinSNR: 3}, &Integrate{}, r)
 		pkCheckPeaks(t, r)
+		// Most noise blocks touch a peak here (several sit on block edges);
+		// the noise must still be that of the baseline: SD 1, range about
+		// 6.5 SD over 1 min at 20 Hz (common practice).
 		h := r.Noise.PeakToPeak
+		if math.Abs(r.Noise.SD-1) > 0.05 || h < 5.5 || h > 7.5 {
+			t.Errorf("seed %d: noise SD %g and range %g, want 1 ± 5 %% and about 6.5", seed, r.Noise.SD, h)
+		}
 		for _, p := range shapes {
 			if dsp.SignalToNoise(p.height, h) < 10 {
 				t.Fatalf("seed %d: test peak at %g min has S/N %.1f < 10 (h = %g); the test is miscalibrated", seed, p.mu, dsp.SignalToNoise(p.height, h), h)

@@ -88,20 +88,20 @@ func (s *Integrate) Run(ctx context.Context, r *Run) error {
 			return fmt.Errorf("integrate: peak %d has samples start %d, apex %d, end %d; they must satisfy 0 ≤ start < apex < end < %d", i+1, p.Start, p.Apex, p.End, n)
 		}
 	}
-	y := corrected(r)
+	y := correctedView(r)
 	t := r.Trace.Time
 	for i := range r.Peaks {
 		p := &r.Peaks[i]
 		m := measure(t, y, p.Start, p.Apex, p.End)
 		p.RT, p.Height, p.Area = m.rt, m.height, m.area
 		p.WidthHalf, p.Width5 = m.wHalf, m.w5
-		p.Tailing = finite(dsp.Symmetry(m.w5, m.lead5))
-		p.Plates = finite(dsp.PlateNumber(m.rt, m.wHalf, cN))
-		p.SNR = finite(dsp.SignalToNoise(m.height, r.Noise.PeakToPeak))
+		p.Tailing = finiteOr0(dsp.Symmetry(m.w5, m.lead5))
+		p.Plates = finiteOr0(dsp.PlateNumber(m.rt, m.wHalf, cN))
+		p.SNR = finiteOr0(dsp.SignalToNoise(m.height, r.Noise.PeakToPeak))
 		p.Resolution = 0
 		if i > 0 {
 			q := &r.Peaks[i-1]
-			p.Resolution = finite(dsp.Resolution(q.RT, p.RT, q.WidthHalf, p.WidthHalf, cR))
+			p.Resolution = finiteOr0(dsp.Resolution(q.RT, p.RT, q.WidthHalf, p.WidthHalf, cR))
 		}
 	}
 	return nil
@@ -120,21 +120,21 @@ type shape struct {
 // 0 ≤ start < apex < end < len(y).
 func measure(t, y []float64, start, apex, end int) shape {
 	pos, h := dsp.Apex(y, apex)
-	m := shape{rt: finite(timeAt(t, pos)), height: finite(h)}
+	m := shape{rt: finiteOr0(timeAt(t, pos)), height: finiteOr0(h)}
 	var a float64
 	for i := start; i < end; i++ {
 		a += (y[i] + y[i+1]) * (t[i+1] - t[i])
 	}
-	m.area = finite(a / 2 * 60)
+	m.area = finiteOr0(a / 2 * 60)
 	if !(m.height > 0) {
 		return m
 	}
 	if l, r, ok := dsp.Crossings(y, apex, start, end, 0.5*m.height); ok {
-		m.wHalf = finite(timeAt(t, r) - timeAt(t, l))
+		m.wHalf = finiteOr0(timeAt(t, r) - timeAt(t, l))
 	}
 	if l, r, ok := dsp.Crossings(y, apex, start, end, 0.05*m.height); ok {
-		m.w5 = finite(timeAt(t, r) - timeAt(t, l))
-		m.lead5 = finite(m.rt - timeAt(t, l))
+		m.w5 = finiteOr0(timeAt(t, r) - timeAt(t, l))
+		m.lead5 = finiteOr0(m.rt - timeAt(t, l))
 	}
 	return m
 }
@@ -152,17 +152,17 @@ func timeAt(t []float64, pos float64) float64 {
 	return t[i] + (pos-float64(i))*(t[i+1]-t[i])
 }
 
-// corrected returns the baseline-corrected working signal for reading only:
+// correctedView returns the baseline-corrected working signal for reading only:
 // Processed itself when there is no baseline, else r.Corrected().
-func corrected(r *Run) []float64 {
+func correctedView(r *Run) []float64 {
 	if r.Baseline == nil {
 		return r.Processed
 	}
 	return r.Corrected()
 }
 
-// finite returns x, or 0 when x is NaN or infinite.
-func finite(x float64) float64 {
+// finiteOr0 returns x, or 0 when x is NaN or infinite.
+func finiteOr0(x float64) float64 {
 	if math.IsNaN(x) || math.IsInf(x, 0) {
 		return 0
 	}
