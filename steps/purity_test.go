@@ -20,10 +20,10 @@ func TestPurityChain(t *testing.T) {
 	drift := func(x float64) float64 { return 3 + 1.5*math.Exp(-x/3) + 0.02*x*x }
 	main := pkShape{height: 60000, mu: 8.0, sigma: 0.02, tau: 0.02}
 	imps := []pkShape{
-		{height: 90, mu: 7.78, sigma: 0.015, tau: 0.006}, // leading flank
+		{height: 90, mu: 7.78, sigma: 0.015, tau: 0.006},  // leading flank
 		{height: 140, mu: 8.30, sigma: 0.018, tau: 0.008}, // on the tail
-		{height: 40, mu: 8.55, sigma: 0.02, tau: 0.008},  // further on the tail
-		{height: 75, mu: 5.00, sigma: 0.014, tau: 0.005}, // away from it
+		{height: 40, mu: 8.55, sigma: 0.02, tau: 0.008},   // further on the tail
+		{height: 75, mu: 5.00, sigma: 0.014, tau: 0.005},  // away from it
 	}
 	all := append([]pkShape{main}, imps...)
 	total := 0.0

@@ -106,7 +106,7 @@ func common(lot, sample, kind, when, water string) [][2]string {
 
 func mainAndSolvent(area float64) []peak {
 	return []peak{
-		{area: 900, mu: 1.10, sigma: 0.010, tau: 0.004},   // unretained (air) peak
+		{area: 900, mu: 1.10, sigma: 0.010, tau: 0.004},  // unretained (air) peak
 		{area: area, mu: 6.40, sigma: 0.018, tau: 0.016}, // toluene, main component
 	}
 }
