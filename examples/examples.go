@@ -8,9 +8,10 @@ import "embed"
 
 //go:generate go run ./gen
 
-// FS holds the demo pipeline (toluene-release.hcl) and data (data/*.csv).
+// FS holds the demo pipeline (toluene-release.hcl), the invented works'
+// logo (okkerby-logo.png) and the data (data/*.csv).
 //
-//go:embed toluene-release.hcl data/*.csv
+//go:embed toluene-release.hcl okkerby-logo.png data/*.csv
 var FS embed.FS
 
 // Pipeline is the demo pipeline's file name inside FS.

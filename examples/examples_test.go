@@ -16,6 +16,10 @@ func TestDataMatchesGenerator(t *testing.T) {
 	if len(want) != len(demo) {
 		t.Fatalf("%d committed files, generator makes %d", len(want), len(demo))
 	}
+	logo, err := FS.ReadFile("okkerby-logo.png")
+	if err != nil || !bytes.Equal(logo, synth.Logo(160)) {
+		t.Errorf("okkerby-logo.png differs from the generator's output; run go generate ./examples")
+	}
 	for _, c := range demo {
 		got, err := FS.ReadFile("data/" + c.File)
 		if err != nil {

@@ -123,3 +123,15 @@ limit "Blank: peaks above S/N 10" {
   max   = 0
   when  = meta.sample_type == "blank"
 }
+
+report {
+  formats     = ["json", "xlsx", "pdf"]
+  site        = "Okkerby Solvents — Tarnmouth works, Quality Control laboratory"
+  address     = ["4 Quay Road, Tarnmouth", "(an invented company for the lotgate demo)"]
+  logo        = "okkerby-logo.png"
+  product     = "Refined toluene"
+  grade       = "TR-99.8 (product code OKS-T998)"
+  paper       = "A4"
+  signatures  = ["Analysed by (QC analyst)", "Reviewed by (QC supervisor)", "Released by (QA)"]
+  safety_note = "Toluene: keep containers closed and away from ignition sources; the works' permit-to-work rules apply in the GC laboratory."
+}

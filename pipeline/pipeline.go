@@ -36,6 +36,9 @@ type Pipeline struct {
 	Input  input.Options
 	Steps  []steps.Step
 	Limits []*LimitDef
+	Report ReportSettings
+	// Logo holds the bytes of the report's logo image, if any.
+	Logo []byte
 
 	// stepSettings parallels Steps: each step's settings as used.
 	stepSettings  [][]Setting
@@ -86,7 +89,8 @@ func Load(path string) (*Pipeline, error) {
 	return Parse(src, path)
 }
 
-// Parse checks a pipeline held in memory; filename is used in diagnostics.
+// Parse checks a pipeline held in memory; filename is used in diagnostics,
+// and files the pipeline names (a logo) are read relative to its folder.
 func Parse(src []byte, filename string) (*Pipeline, error) {
 	f, diags := hclsyntax.ParseConfig(src, filename, hcl.InitialPos)
 	files := map[string]*hcl.File{filename: f}
@@ -95,7 +99,7 @@ func Parse(src []byte, filename string) (*Pipeline, error) {
 	}
 	sum := sha256.Sum256(src)
 	p := &Pipeline{File: filepath.Base(filename), Digest: hex.EncodeToString(sum[:])}
-	diags = append(diags, p.decode(f.Body, src)...)
+	diags = append(diags, p.decode(f.Body, src, filepath.Dir(filename))...)
 	if diags.HasErrors() {
 		return nil, &Error{Diags: diags, files: files}
 	}
@@ -107,6 +111,7 @@ func topSchema() *hcl.BodySchema {
 		{Type: "pipeline", LabelNames: []string{"name"}},
 		{Type: "input"},
 		{Type: "limit", LabelNames: []string{"name"}},
+		{Type: "report"},
 	}}
 	for _, t := range stepTypes() {
 		s.Blocks = append(s.Blocks, hcl.BlockHeaderSchema{Type: t})
@@ -123,14 +128,15 @@ var inputSchema = &hcl.BodySchema{Attributes: []hcl.AttributeSchema{
 	{Name: "max_mb"}, {Name: "spacing_tolerance"}, {Name: "min_points"},
 }}
 
-func (p *Pipeline) decode(body hcl.Body, src []byte) hcl.Diagnostics {
+func (p *Pipeline) decode(body hcl.Body, src []byte, dir string) hcl.Diagnostics {
+	p.Report = defaultReport()
 	content, diags := body.Content(topSchema())
 	var header *hcl.Block
 	once := map[string]*hcl.Block{}
 	done := map[string]bool{}
 	for _, b := range content.Blocks {
 		switch b.Type {
-		case "pipeline", "input":
+		case "pipeline", "input", "report":
 			if prev := once[b.Type]; prev != nil {
 				diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate " + b.Type + " block",
 					Detail:  fmt.Sprintf("a pipeline has one %s block; the first is at line %d", b.Type, prev.DefRange.Start.Line),
@@ -138,11 +144,14 @@ func (p *Pipeline) decode(body hcl.Body, src []byte) hcl.Diagnostics {
 				continue
 			}
 			once[b.Type] = b
-			if b.Type == "pipeline" {
+			switch b.Type {
+			case "pipeline":
 				header = b
 				diags = append(diags, p.decodeHeader(b)...)
-			} else {
+			case "input":
 				diags = append(diags, p.decodeInput(b)...)
+			default:
+				diags = append(diags, p.decodeReport(b, dir)...)
 			}
 		case "limit":
 			l, d := decodeLimit(b, src)

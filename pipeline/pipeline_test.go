@@ -17,13 +17,12 @@ const minimal = `pipeline "t" {
 `
 
 func TestDemoPipelineLoads(t *testing.T) {
-	src, err := examples.FS.ReadFile(examples.Pipeline)
+	p, err := Load(filepath.Join("..", "examples", examples.Pipeline))
 	if err != nil {
 		t.Fatal(err)
 	}
-	p, err := Parse(src, examples.Pipeline)
-	if err != nil {
-		t.Fatal(err)
+	if len(p.Logo) == 0 || p.Report.LogoSHA256 == "" || len(p.Report.Cautions) != len(DefaultCautions)+1 {
+		t.Errorf("report: logo %d bytes, %d cautions", len(p.Logo), len(p.Report.Cautions))
 	}
 	var names []string
 	for _, s := range p.Steps {
@@ -114,5 +113,34 @@ func TestStepsDefaultsRecorded(t *testing.T) {
 	m := p.method()
 	if len(m.Steps) != 1 || len(m.Steps[0].Settings) != 3 {
 		t.Errorf("settings recorded: %+v", m.Steps)
+	}
+}
+
+func TestReportBlock(t *testing.T) {
+	cases := []struct {
+		name, body, want string
+	}{
+		{"unknown format", `formats = ["json", "docx"]`, `format "docx" is not known`},
+		{"json required", `formats = ["pdf"]`, `formats must include "json"`},
+		{"paper", `paper = "A3"`, `paper "A3" is not known`},
+		{"missing logo", `logo = "nope.png"`, "cannot read the logo"},
+		{"safety note cannot remove", `safety_note = ""`, ""},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			p, err := Parse([]byte(minimal+"report {\n  "+c.body+"\n}\n"), filepath.Join(t.TempDir(), "m.hcl"))
+			if c.want == "" {
+				if err != nil {
+					t.Fatal(err)
+				}
+				if len(p.Report.Cautions) != len(DefaultCautions) {
+					t.Errorf("the default cautions must always be there: %v", p.Report.Cautions)
+				}
+				return
+			}
+			if err == nil || !strings.Contains(err.Error(), c.want) {
+				t.Errorf("got %v, want %q", err, c.want)
+			}
+		})
 	}
 }

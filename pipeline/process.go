@@ -85,6 +85,7 @@ func (p *Pipeline) Process(ctx context.Context, name string, data []byte, at tim
 		Limits:     buildLimits(p.Limits, results),
 		Verdict:    rules.Verdict(results),
 		Warnings:   r.Warnings,
+		Report:     p.Report,
 		Trace:      traceOf(r),
 	}
 	for _, k := range d.MetaOrder {

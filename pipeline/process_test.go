@@ -67,11 +67,7 @@ func TestRunTime(t *testing.T) {
 
 // demoPipeline and demoData load the bundled demo for benchmarks.
 func demoPipeline(b *testing.B) *Pipeline {
-	src, err := examples.FS.ReadFile(examples.Pipeline)
-	if err != nil {
-		b.Fatal(err)
-	}
-	p, err := Parse(src, examples.Pipeline)
+	p, err := Load(filepath.Join("..", "examples", examples.Pipeline))
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -29,6 +29,7 @@ type Record struct {
 	Limits     []LimitRec     `json:"limits"`
 	Verdict    string         `json:"verdict"`
 	Warnings   []string       `json:"warnings"`
+	Report     ReportSettings `json:"report"`
 	Trace      *TraceRec      `json:"trace"`
 }
 

@@ -360,9 +360,11 @@ func dropWiggles(y, s []float64, apexes []int, level, minDip float64) []int {
 	// sample between them it is the lower apex, which never separates.
 	valley := make([]float64, k-1)
 	for i := range valley {
-		v := math.Min(y[apexes[i]], y[apexes[i+1]])
-		for j := apexes[i] + 1; j < apexes[i+1]; j++ {
-			v = math.Min(v, s[j])
+		v := min(y[apexes[i]], y[apexes[i+1]])
+		for _, x := range s[apexes[i]+1 : apexes[i+1]] {
+			if x < v {
+				v = x
+			}
 		}
 		valley[i] = v
 	}

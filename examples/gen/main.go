@@ -16,6 +16,12 @@ func main() {
 		fmt.Fprintln(os.Stderr, err)
 		os.Exit(1)
 	}
+	logo := filepath.Join("examples", "okkerby-logo.png")
+	if err := os.WriteFile(logo, synth.Logo(160), 0o644); err != nil {
+		fmt.Fprintln(os.Stderr, err)
+		os.Exit(1)
+	}
+	fmt.Println("wrote", logo)
 	for _, c := range synth.Demo() {
 		path := filepath.Join(dir, c.File)
 		if err := os.WriteFile(path, c.Render(), 0o644); err != nil {

@@ -102,10 +102,15 @@ func NoiseSpans(y []float64, block int, spans []Span) (sd, peakToPeak float64) {
 				nq++
 			}
 		}
-		if 2*nq < ns {
+		var d, r float64
+		switch {
+		case 2*nq < ns:
 			continue
+		case nq == ns:
+			d, r = detrendedStats(y[blocks[b].Lo:blocks[b].Hi])
+		default:
+			d, r = quietStats(y, subs[first[b]:first[b+1]], quiet[first[b]:first[b+1]])
 		}
-		d, r := quietStats(y, subs[first[b]:first[b+1]], quiet[first[b]:first[b+1]])
 		sds, ranges = append(sds, d), append(ranges, r)
 	}
 	if len(sds) == 0 {
@@ -155,7 +160,12 @@ func quietStats(y []float64, subs []Span, quiet []bool) (sd, rng float64) {
 			for i := sp.Lo; i < sp.Hi; i++ {
 				r := y[i] - my - slope*(float64(i-c)-mx)
 				ss += r * r
-				lo, hi = min(lo, r), max(hi, r)
+				if r < lo {
+					lo = r
+				}
+				if r > hi {
+					hi = r
+				}
 			}
 		}
 	}
@@ -193,7 +203,12 @@ func detrendedStats(y []float64) (sd, rng float64) {
 	for i, v := range y {
 		r := v - mean - slope*(float64(i)-c)
 		ss += r * r
-		lo, hi = min(lo, r), max(hi, r)
+		if r < lo {
+			lo = r
+		}
+		if r > hi {
+			hi = r
+		}
 	}
 	return math.Sqrt(ss / (fn - 2)), hi - lo
 }

@@ -65,67 +65,74 @@ func (s *bandSolver) resize(n int) {
 	s.e, s.f = s.e[:n], s.f[:n]
 }
 
-var errSingular = errors.New("whittaker: the weighted system is singular (too few points with positive weight)")
+var errSingular = errors.New("whittaker: the weighted system is numerically singular: too few points with positive weight, or lambda too large for the weights (keep lambda/weight below about 1e13)")
 
 // solve writes the solution to z. len(y) = len(w) = len(z) = n ≥ 3 and the
 // workspace has length n.
 //
 // Rounding in a factorisation of W + λDᵀD leaves an error of roughly
-// λ^(7/8)·ε times the size of the solution, while straight lines, the null
+// (λ/w)·ε times the size of the solution, while straight lines, the null
 // space of D, are reproduced exactly by the exact solution. So the weighted
 // least-squares line ℓ of y is taken out first: A·ℓ = W·ℓ because D·ℓ = 0,
 // hence z = ℓ + s with (W + λDᵀD)·s = W·(y − ℓ), and only the curved part s
 // carries the rounding error.
 //
-// With A = L·diag(d)·Lᵀ, the factorisation and the forward substitution
-// L·u = W·(y − ℓ) run in one pass (storing u/d in z), and the back
-// substitution Lᵀ·s = u/d plus ℓ in a second. The bands of DᵀD are 1, 5, 6,
-// …, 6, 5, 1 on the diagonal, −2, −4, …, −4, −2 beside it and 1 two off it.
+// With A = L·diag(d)·Lᵀ, L unit lower triangular with sub-diagonals e and
+// f, the factorisation and the forward substitution L·u = W·(y − ℓ) run in
+// one pass (storing u/d in z), and the back substitution Lᵀ·s = u/d plus ℓ
+// in a second. Writing g_i = e_i·d_i and using f_i·d_i = A[i+2][i], row i
+// needs one division:
+//
+//	g_i = A[i+1][i] − f_{i−1}·g_{i−1}
+//	d_i = A[i][i] − e_{i−1}·g_{i−1} − f_{i−2}·A[i][i−2]   (A[i][i−2] = λ)
+//	e_i = g_i/d_i,  f_i = A[i+2][i]/d_i.
+//
+// The bands of DᵀD are 1, 5, 6, …, 6, 5, 1 on the diagonal, −2, −4, …, −4,
+// −2 beside it and 1 two off it.
 func (s *bandSolver) solve(y, w []float64, lambda float64, z []float64) error {
 	n := len(y)
 	e, f := s.e[:n], s.f[:n]
+	z = z[:n]
+	w = w[:n]
 	a, b, c, ok := weightedLine(y, w)
 	if !ok {
 		return errSingular
 	}
-	// Values carried from rows i−1 and i−2.
-	var d1, d2, e1, f1, f2, u1, u2 float64
+	// Values carried from rows i−1 (…1) and i−2 (…2).
+	var e1, g1, f1, f2, u1, u2 float64
 	for i := range n {
-		var b0, b1 float64
-		switch {
-		case i >= 2 && i < n-2:
-			b0, b1 = 6, -4
-		default:
+		var b0, b1, a2 float64
+		if i >= 2 && i < n-2 {
+			b0, b1, a2 = 6, -4, lambda
+		} else {
 			b0, b1 = dtdBands(i, n)
+			if i < n-2 {
+				a2 = lambda
+			}
 		}
-		a0 := w[i] + lambda*b0
-		d := a0 - e1*e1*d1 - f2*f2*d2
+		d := w[i] + lambda*b0 - e1*g1 - f2*lambda
 		if !(d > 0) {
 			return errSingular
 		}
 		inv := 1 / d
-		var a1, a2 float64
-		if i < n-1 {
-			a1 = lambda * b1
-		}
-		if i < n-2 {
-			a2 = lambda
-		}
-		ei := (a1 - f1*e1*d1) * inv
-		fi := a2 * inv
+		g := lambda*b1 - f1*g1
 		u := w[i]*(y[i]-(a+b*(float64(i)-c))) - e1*u1 - f2*u2
+		ei, fi := g*inv, a2*inv
 		e[i], f[i], z[i] = ei, fi, u*inv
-		d2, d1 = d1, d
-		e1 = ei
+		e1, g1 = ei, g
 		f2, f1 = f1, fi
 		u2, u1 = u1, u
 	}
-	z[n-2] -= e[n-2] * z[n-1]
+	// Back substitution, keeping s_{i+1} and s_{i+2} in registers.
+	s1 := z[n-1]
+	s0 := z[n-2] - e[n-2]*s1
+	z[n-1] = s1 + a + b*(float64(n-1)-c)
+	z[n-2] = s0 + a + b*(float64(n-2)-c)
+	s2, s1 := s1, s0
 	for i := n - 3; i >= 0; i-- {
-		z[i] -= e[i]*z[i+1] + f[i]*z[i+2]
-	}
-	for i := range z {
-		z[i] += a + b*(float64(i)-c)
+		si := z[i] - f[i]*s2 - e[i]*s1
+		z[i] = si + a + b*(float64(i)-c)
+		s2, s1 = s1, si
 	}
 	return nil
 }
