@@ -55,13 +55,14 @@ const (
 // Apexes. The slope of y is the Savitzky–Golay first derivative (quadratic
 // fit) over SlopeWindow points; the auto choice, for 0, is about a quarter
 // of the half-height width, in samples, of the tallest sample outside the
-// Ignore windows, odd and between 5 and 21. Every sample where the slope
-// turns from positive to zero or negative, and s, the centred moving
-// average of y over the slope window, is above the noise level (one noise
-// SD), is a candidate; its apex is the highest sample within half a slope
-// window of it (the first on ties, never the first or last sample of the
-// trace). A candidate is kept when its apex sample y_a is above the noise
-// level and 2·y_a/h is at least MinSNR.
+// Ignore windows, odd and between 5 and 21 (5 when that width cannot be
+// measured, as for a signal that falls from the start of the trace). Every
+// sample where the slope turns from positive to zero or negative, and s,
+// the centred moving average of y over the slope window, is above the noise
+// level (one noise SD), is a candidate; its apex is the highest sample
+// within half a slope window of it (the first on ties, never the first or
+// last sample of the trace). A candidate is kept when its apex sample y_a
+// is above the noise level and 2·y_a/h is at least MinSNR.
 //
 // Merging. The valley between two neighbouring candidates is the lowest s
 // between them. Where a valley falls to the noise level the candidates lie on
@@ -144,7 +145,7 @@ func (d *Detect) Run(ctx context.Context, r *Run) error {
 	}
 	r.Noise = noise
 	if floored {
-		r.Warn(fmt.Sprintf("detect: the background noise measured zero (a noise-free signal?); S/N uses a noise range of %g", noise.PeakToPeak))
+		r.Warn(fmt.Sprintf("detect: the background noise measured zero (a noise-free signal, or nothing outside the ignore windows); S/N uses a noise range of %g", noise.PeakToPeak))
 	}
 	r.Peaks = []Peak{}
 	if n < 5 {
@@ -201,9 +202,9 @@ func (d *Detect) check() error {
 	for _, v := range []struct {
 		name string
 		x    float64
-	}{{"min_snr", d.MinSNR}, {"min_width", d.MinWidth}, {"min_height", d.MinHeight}, {"min_area", d.MinArea}, {"noise_block", d.NoiseBlock}} {
+	}{{"minimum S/N", d.MinSNR}, {"minimum width", d.MinWidth}, {"minimum height", d.MinHeight}, {"minimum area", d.MinArea}, {"noise block length", d.NoiseBlock}} {
 		if !(v.x >= 0) || math.IsInf(v.x, 1) {
-			return fmt.Errorf("detect: %s is %g; it must be a finite number ≥ 0", v.name, v.x)
+			return fmt.Errorf("detect: the %s is %g; it must be a finite number ≥ 0", v.name, v.x)
 		}
 	}
 	if d.SlopeWindow != 0 && (d.SlopeWindow < 3 || d.SlopeWindow%2 == 0) {

@@ -425,9 +425,10 @@ func TestDetectErrors(t *testing.T) {
 		r    func() *Run
 		want string
 	}{
-		{"negative snr", Detect{MinSNR: -1}, good, "min_snr"},
-		{"NaN width", Detect{MinWidth: math.NaN()}, good, "min_width"},
-		{"infinite area", Detect{MinArea: math.Inf(1)}, good, "min_area"},
+		{"negative snr", Detect{MinSNR: -1}, good, "minimum S/N"},
+		{"NaN width", Detect{MinWidth: math.NaN()}, good, "minimum width"},
+		{"infinite area", Detect{MinArea: math.Inf(1)}, good, "minimum area"},
+		{"negative block", Detect{NoiseBlock: -2}, good, "noise block"},
 		{"even slope window", Detect{SlopeWindow: 8}, good, "slope window"},
 		{"tiny slope window", Detect{SlopeWindow: 1}, good, "slope window"},
 		{"reversed ignore", Detect{Ignore: []Window{{3, 1}}}, good, "from must not be after to"},

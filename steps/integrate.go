@@ -35,8 +35,8 @@ const (
 //     measurable") rather than a guess.
 //   - Tailing = Width5/(2f), f the distance from the leading 5 % crossing
 //     to RT.
-//   - Plates = c·(RT/WidthHalf)², with RT measured from the first sample's
-//     time origin (time 0 of the trace).
+//   - Plates = c·(RT/WidthHalf)², RT read on the trace's own time axis
+//     (injection at 0 min).
 //   - SNR = 2·Height/h, h the noise range found by detect.
 //   - Resolution from the previous peak = c′·(RT2 − RT1)/(wh1 + wh2).
 //

@@ -147,13 +147,13 @@ func failures(rec *pipeline.Record) string {
 	var parts []string
 	for _, l := range rec.Limits {
 		if l.Status != "pass" {
-			parts = append(parts, fmt.Sprintf("%s: %s;", l.Name, l.Reason))
+			parts = append(parts, fmt.Sprintf("%s: %s", l.Name, l.Reason))
 		}
 	}
 	if len(parts) == 0 {
 		return "→ "
 	}
-	return strings.Join(parts, " ") + " → "
+	return strings.Join(parts, "; ") + " → "
 }
 
 func oneLine(err error) string { return strings.ReplaceAll(err.Error(), "\n", "; ") }
