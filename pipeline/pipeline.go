@@ -8,7 +8,9 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"fmt"
+	"io/fs"
 	"os"
+	"path"
 	"path/filepath"
 	"slices"
 	"strings"
@@ -39,6 +41,13 @@ type Pipeline struct {
 	Report ReportSettings
 	// Logo holds the bytes of the report's logo image, if any.
 	Logo []byte
+	// Refs lists the files the pipeline names (as written, relative to its
+	// folder), in the order they appear: what a frozen bundle must carry.
+	Refs []string
+	// Bundle is the SHA-256 of the frozen bundle the pipeline came from, or "".
+	Bundle string
+
+	readRef func(string) ([]byte, error)
 
 	// stepSettings parallels Steps: each step's settings as used.
 	stepSettings  [][]Setting
@@ -80,7 +89,8 @@ func (e *Error) Pretty() string {
 	return b.String()
 }
 
-// Load reads and checks the pipeline file at path.
+// Load reads and checks the pipeline file at path. Files it names (a logo)
+// are read relative to its folder.
 func Load(path string) (*Pipeline, error) {
 	src, err := os.ReadFile(path)
 	if err != nil {
@@ -90,16 +100,45 @@ func Load(path string) (*Pipeline, error) {
 }
 
 // Parse checks a pipeline held in memory; filename is used in diagnostics,
-// and files the pipeline names (a logo) are read relative to its folder.
+// and files the pipeline names are read from the disk relative to its folder.
 func Parse(src []byte, filename string) (*Pipeline, error) {
+	dir := filepath.Dir(filename)
+	return parse(src, filename, func(ref string) ([]byte, error) {
+		if !filepath.IsAbs(ref) {
+			ref = filepath.Join(dir, ref)
+		}
+		return os.ReadFile(ref)
+	})
+}
+
+// LoadFS reads and checks the pipeline at name inside fsys; files it names
+// are read from fsys too, relative to the pipeline's folder there, and a
+// name that would leave fsys (absolute, or climbing out with "..") is
+// refused. A frozen bundle loads this way, so it never reads outside itself.
+func LoadFS(fsys fs.FS, name string) (*Pipeline, error) {
+	src, err := fs.ReadFile(fsys, name)
+	if err != nil {
+		return nil, fmt.Errorf("pipeline %s: %w", name, err)
+	}
+	dir := path.Dir(name)
+	return parse(src, name, func(ref string) ([]byte, error) {
+		full := path.Join(dir, filepath.ToSlash(ref))
+		if filepath.IsAbs(ref) || !fs.ValidPath(full) {
+			return nil, fmt.Errorf("%q is outside the bundle; a frozen pipeline reads only its own files", ref)
+		}
+		return fs.ReadFile(fsys, full)
+	})
+}
+
+func parse(src []byte, filename string, readRef func(string) ([]byte, error)) (*Pipeline, error) {
 	f, diags := hclsyntax.ParseConfig(src, filename, hcl.InitialPos)
 	files := map[string]*hcl.File{filename: f}
 	if diags.HasErrors() {
 		return nil, &Error{Diags: diags, files: files}
 	}
 	sum := sha256.Sum256(src)
-	p := &Pipeline{File: filepath.Base(filename), Digest: hex.EncodeToString(sum[:])}
-	diags = append(diags, p.decode(f.Body, src, filepath.Dir(filename))...)
+	p := &Pipeline{File: filepath.Base(filename), Digest: hex.EncodeToString(sum[:]), readRef: readRef}
+	diags = append(diags, p.decode(f.Body, src)...)
 	if diags.HasErrors() {
 		return nil, &Error{Diags: diags, files: files}
 	}
@@ -128,7 +167,7 @@ var inputSchema = &hcl.BodySchema{Attributes: []hcl.AttributeSchema{
 	{Name: "max_mb"}, {Name: "spacing_tolerance"}, {Name: "min_points"},
 }}
 
-func (p *Pipeline) decode(body hcl.Body, src []byte, dir string) hcl.Diagnostics {
+func (p *Pipeline) decode(body hcl.Body, src []byte) hcl.Diagnostics {
 	p.Report = defaultReport()
 	content, diags := body.Content(topSchema())
 	var header *hcl.Block
@@ -151,7 +190,7 @@ func (p *Pipeline) decode(body hcl.Body, src []byte, dir string) hcl.Diagnostics
 			case "input":
 				diags = append(diags, p.decodeInput(b)...)
 			default:
-				diags = append(diags, p.decodeReport(b, dir)...)
+				diags = append(diags, p.decodeReport(b)...)
 			}
 		case "limit":
 			l, d := decodeLimit(b, src)

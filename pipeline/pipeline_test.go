@@ -6,6 +6,7 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"testing/fstest"
 
 	"lotgate/examples"
 	"lotgate/steps"
@@ -142,5 +143,28 @@ func TestReportBlock(t *testing.T) {
 				t.Errorf("got %v, want %q", err, c.want)
 			}
 		})
+	}
+}
+
+// A pipeline loaded from a file system (a frozen bundle) reads its files
+// from there and nowhere else.
+func TestLoadFS(t *testing.T) {
+	fsys := fstest.MapFS{
+		"m/p.hcl":    {Data: []byte(minimal + "report {\n  logo = \"logo.png\"\n}\n")},
+		"m/logo.png": {Data: []byte("png")},
+		"m/out.hcl":  {Data: []byte(minimal + "report {\n  logo = \"../../secret.png\"\n}\n")},
+		"m/abs.hcl":  {Data: []byte(minimal + "report {\n  logo = \"/etc/hostname\"\n}\n")},
+	}
+	p, err := LoadFS(fsys, "m/p.hcl")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if string(p.Logo) != "png" || len(p.Refs) != 1 || p.Refs[0] != "logo.png" {
+		t.Errorf("logo %q refs %v", p.Logo, p.Refs)
+	}
+	for _, name := range []string{"m/out.hcl", "m/abs.hcl"} {
+		if _, err := LoadFS(fsys, name); err == nil || !strings.Contains(err.Error(), "outside the bundle") {
+			t.Errorf("%s: want a refusal, got %v", name, err)
+		}
 	}
 }

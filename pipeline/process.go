@@ -74,7 +74,7 @@ func (p *Pipeline) Process(ctx context.Context, name string, data []byte, at tim
 		Schema: Schema,
 		Provenance: Provenance{
 			Tool: "lotgate", Version: Version,
-			PipelineFile: p.File, PipelineSHA256: p.Digest,
+			PipelineFile: p.File, PipelineSHA256: p.Digest, BundleSHA256: p.Bundle,
 			InputFile: filepath.Base(name), InputSHA256: hex.EncodeToString(sum[:]),
 			ProcessedAt: at.UTC().Format(time.RFC3339),
 		},

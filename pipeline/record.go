@@ -39,8 +39,10 @@ type Provenance struct {
 	Version        string `json:"version"`
 	PipelineFile   string `json:"pipeline_file"`
 	PipelineSHA256 string `json:"pipeline_sha256"`
-	InputFile      string `json:"input_file"`
-	InputSHA256    string `json:"input_sha256"`
+	// BundleSHA256 names the frozen bundle the pipeline came from, if any.
+	BundleSHA256 string `json:"bundle_sha256,omitempty"`
+	InputFile    string `json:"input_file"`
+	InputSHA256  string `json:"input_sha256"`
 	// ProcessedAt is RFC 3339 UTC; it honours SOURCE_DATE_EPOCH.
 	ProcessedAt string `json:"processed_at"`
 }

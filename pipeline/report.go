@@ -4,7 +4,6 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"fmt"
-	"os"
 	"path/filepath"
 	"slices"
 
@@ -69,7 +68,7 @@ func (a *attrs) strings(name string, def []string) []string {
 	return out
 }
 
-func (p *Pipeline) decodeReport(b *hcl.Block, dir string) hcl.Diagnostics {
+func (p *Pipeline) decodeReport(b *hcl.Block) hcl.Diagnostics {
 	a := newAttrs(b, reportSchema)
 	r := defaultReport()
 	r.Formats = a.strings("formats", r.Formats)
@@ -94,11 +93,8 @@ func (p *Pipeline) decodeReport(b *hcl.Block, dir string) hcl.Diagnostics {
 		r.Cautions = append(slices.Clone(DefaultCautions), note)
 	}
 	if logo := a.str("logo", ""); logo != "" {
-		path := logo
-		if !filepath.IsAbs(path) {
-			path = filepath.Join(dir, logo)
-		}
-		data, err := os.ReadFile(path)
+		p.Refs = append(p.Refs, logo)
+		data, err := p.readRef(logo)
 		if err != nil {
 			a.fail("logo", fmt.Sprintf("cannot read the logo: %v", err))
 		} else {
