@@ -61,18 +61,20 @@ func SavitzkyGolay(y []float64, window, order, deriv int, h float64) ([]float64,
 	for i := range c {
 		c[i] *= scale
 	}
+	// Interior: out[j] = Σ c_i·y[j−m+i], accumulated one weight at a time
+	// over the whole interior, so that successive points do not wait on one
+	// another's sums.
 	out := make([]float64, n)
-	for j := m; j < n-m; j++ {
-		seg := y[j-m : j+m+1]
-		var s float64
-		for i, ci := range c {
-			s += ci * seg[i]
+	inner := out[m : n-m]
+	for i, ci := range c {
+		src := y[i : i+len(inner)]
+		for j, v := range src {
+			inner[j] += ci * v
 		}
-		out[j] = s
 	}
 
-	// Edge rows: point p of the first window sits at offset p−m from its
-	// centre, point n−window+p of the last window at offset p−m as well.
+	// Edge rows: point p (p < m) sits at offset p−m from the centre of the
+	// first window, point n−1−p at offset m−p from the centre of the last.
 	head, tail := y[:window], y[n-window:]
 	for p := 0; p < m; p++ {
 		f.weights(c, p-m, deriv)
@@ -198,7 +200,7 @@ func (f *sgFit) weights(c []float64, off, deriv int) {
 // of at least 3 points, as a new slice. Point j averages y[j−k…j+k] with
 // k = min((window−1)/2, j, len(y)−1−j): the window shrinks symmetrically at
 // the edges (the first and last points are returned unchanged). The
-// interior uses a running sum with Neumaier's compensated summation, so
+// interior uses a running sum with compensated (Neumaier) summation, so
 // rounding error does not accumulate over long traces; the cost is
 // O(len(y)).
 func MovingAverage(y []float64, window int) ([]float64, error) {
@@ -234,17 +236,15 @@ func MovingAverage(y []float64, window int) ([]float64, error) {
 	return out, nil
 }
 
-// neumaier is a compensated running sum (Neumaier's variant of Kahan
-// summation).
+// neumaier is a compensated running sum: the rounding error of every
+// addition, found exactly by Knuth's branch-free TwoSum, is accumulated
+// separately (the Kahan–Babuška–Neumaier scheme).
 type neumaier struct{ s, c float64 }
 
 func (a *neumaier) add(v float64) {
 	t := a.s + v
-	if math.Abs(a.s) >= math.Abs(v) {
-		a.c += (a.s - t) + v
-	} else {
-		a.c += (v - t) + a.s
-	}
+	bp := t - a.s
+	a.c += (a.s - (t - bp)) + (v - bp)
 	a.s = t
 }
 

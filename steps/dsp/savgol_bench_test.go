@@ -2,6 +2,7 @@ package dsp
 
 import (
 	"math"
+	"strconv"
 	"testing"
 )
 
@@ -46,7 +47,7 @@ func BenchmarkSavitzkyGolay(b *testing.B) {
 func BenchmarkMovingAverage(b *testing.B) {
 	for _, n := range []int{36_000, 1_000_000} {
 		y := benchTrace(n)
-		b.Run(itoa(n), func(b *testing.B) {
+		b.Run(strconv.Itoa(n), func(b *testing.B) {
 			for b.Loop() {
 				if _, err := MovingAverage(y, 21); err != nil {
 					b.Fatal(err)

@@ -266,9 +266,11 @@ func TestSGGaussianApexAttenuation(t *testing.T) {
 }
 
 func TestSGDerivativeSpacing(t *testing.T) {
-	// d/dt sin(t) = cos(t), d²/dt² = −sin(t) (calculus); a 9-point quartic
-	// fit at h = 0.01 is accurate to O(h⁴)-level here. Tolerances from the
-	// fit's truncation error, about h^(order+1−deriv)·window^…, chosen loose.
+	// d/dt sin(t) = cos(t) and d²/dt² = −sin(t) (calculus) at spacing
+	// h = 0.01: this checks the division by h^deriv, which a wrong power
+	// would miss by a factor of 100 or more. The bounds are a few times the
+	// truncation error of a 9-point quartic fit (largest at the edges, where
+	// the point is off-centre in its window: about 3e-8 and 7e-6 here).
 	const h = 0.01
 	y := make([]float64, 400)
 	for i := range y {
