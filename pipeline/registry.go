@@ -30,7 +30,7 @@ var registry = map[string]stepKind{
 	"baseline": {
 		schema: &hcl.BodySchema{Attributes: []hcl.AttributeSchema{
 			{Name: "method"}, {Name: "lambda"}, {Name: "asymmetry"}, {Name: "iterations"},
-			{Name: "tolerance"}, {Name: "clip"},
+			{Name: "tolerance"}, {Name: "clip"}, {Name: "max_points"},
 		}},
 		decode: decodeBaseline,
 	},
@@ -111,6 +111,12 @@ func decodeBaseline(a *attrs) steps.Step {
 		Clip: a.num("clip", dsp.DefaultClip, func(x float64) string {
 			if x == 0 {
 				return "clip must not be 0: give the clipping level in noise SDs (3 by default), or a negative number for textbook AsLS"
+			}
+			return ""
+		}),
+		MaxPoints: a.integer("max_points", 4000, func(n int) string {
+			if n != 0 && n < 100 {
+				return fmt.Sprintf("max_points must be 0 (no reduction) or at least 100, not %d", n)
 			}
 			return ""
 		}),

@@ -34,15 +34,16 @@ func TestPurityChain(t *testing.T) {
 		t.Fatalf("set-up: main peak is %.3f area %%, want about 99.6", f)
 	}
 	for _, c := range []struct {
-		name   string
-		clip   float64
-		robust bool
-	}{{"robust", 3, true}, {"textbook", -1, false}} {
+		name      string
+		clip      float64
+		maxPoints int
+		robust    bool
+	}{{"robust", 3, 0, true}, {"robust on block means", 3, 4000, true}, {"textbook", -1, 0, false}} {
 		t.Run(c.name, func(t *testing.T) {
 			r := pkRun(16, 20, all, drift, sd, 99)
 			chain := []Step{
 				&Smooth{Method: SavitzkyGolay, Window: 11, Order: 2},
-				&Baseline{Lambda: 1e8, Asymmetry: 0.001, Iterations: 50, Tolerance: 0.01, Clip: c.clip},
+				&Baseline{Lambda: 1e8, Asymmetry: 0.001, Iterations: 50, Tolerance: 0.01, Clip: c.clip, MaxPoints: c.maxPoints},
 				&Detect{MinSNR: 10},
 				&Integrate{},
 				&Quantify{Method: AreaPercent},

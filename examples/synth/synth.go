@@ -19,6 +19,21 @@ type peak struct {
 	area, mu, sigma, tau float64
 }
 
+// Truth is a peak as generated, for accuracy tests.
+type Truth struct {
+	// Area in pA·s; Mu, Sigma and Tau of the EMG in min.
+	Area, Mu, Sigma, Tau float64
+}
+
+// Truth returns the peaks the chromatogram was made from.
+func (c Chromatogram) Truth() []Truth {
+	out := make([]Truth, len(c.peaks))
+	for i, p := range c.peaks {
+		out[i] = Truth{p.area, p.mu, p.sigma, p.tau}
+	}
+	return out
+}
+
 // Chromatogram describes one synthetic run of the demo scenario.
 type Chromatogram struct {
 	File  string
@@ -31,7 +46,8 @@ type Chromatogram struct {
 const (
 	rateHz  = 20
 	minutes = 30
-	noiseSD = 0.05 // pA, white detector noise
+	// NoiseSD is the SD of the white detector noise, in pA.
+	NoiseSD = 0.05
 )
 
 // baseline is the drifting FID background in pA: a settling term after the
@@ -72,7 +88,7 @@ func (c Chromatogram) Render() []byte {
 	for i := range n {
 		ts := float64(i) / rateHz
 		tm := ts / 60
-		y := baseline(tm) + noiseSD*r.normal()
+		y := baseline(tm) + NoiseSD*r.normal()
 		for _, p := range c.peaks {
 			if math.Abs(tm-p.mu) < 12*p.sigma+40*p.tau {
 				y += dsp.EMG(tm, p.area/60, p.mu, p.sigma, p.tau) // area/60: pA·s → pA·min
