@@ -59,6 +59,11 @@ func (p *Pipeline) Process(ctx context.Context, name string, data []byte, at tim
 	if err != nil {
 		return nil, err
 	}
+	return p.analyse(ctx, name, hex.EncodeToString(sum[:]), d, at)
+}
+
+// analyse runs the steps and the limits on data already read.
+func (p *Pipeline) analyse(ctx context.Context, name, digest string, d *input.Data, at time.Time) (*Record, error) {
 	r := steps.NewRun(d.Trace, d.Meta)
 	for _, st := range p.Steps {
 		if err := ctx.Err(); err != nil {
@@ -75,7 +80,7 @@ func (p *Pipeline) Process(ctx context.Context, name string, data []byte, at tim
 		Provenance: Provenance{
 			Tool: "lotgate", Version: Version,
 			PipelineFile: p.File, PipelineSHA256: p.Digest, BundleSHA256: p.Bundle,
-			InputFile: filepath.Base(name), InputSHA256: hex.EncodeToString(sum[:]),
+			InputFile: filepath.Base(name), InputSHA256: digest,
 			ProcessedAt: at.UTC().Format(time.RFC3339),
 		},
 		Method:     p.method(),

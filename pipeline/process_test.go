@@ -90,6 +90,40 @@ func BenchmarkProcess(b *testing.B) {
 	}
 }
 
+// BenchmarkAnalysis is the whole analysis of the demo lot, file reading
+// excluded: every step, the limits and the record.
+func BenchmarkAnalysis(b *testing.B) {
+	p := demoPipeline(b)
+	data, err := examples.FS.ReadFile("data/T998-26-1141.csv")
+	if err != nil {
+		b.Fatal(err)
+	}
+	d, err := input.Read(strings.NewReader(string(data)), "x.csv", p.Input)
+	if err != nil {
+		b.Fatal(err)
+	}
+	for b.Loop() {
+		if _, err := p.analyse(context.Background(), "x.csv", "", d, time.Unix(0, 0)); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkAnalysis1M is BenchmarkAnalysis on 1,000,000 points (see
+// BenchmarkProcess1M for the trace).
+func BenchmarkAnalysis1M(b *testing.B) {
+	p := demoPipeline(b)
+	d, err := input.Read(strings.NewReader(string(bigTrace(b, p))), "big.csv", p.Input)
+	if err != nil {
+		b.Fatal(err)
+	}
+	for b.Loop() {
+		if _, err := p.analyse(context.Background(), "big.csv", "", d, time.Unix(0, 0)); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
 // BenchmarkRead is the file reading alone, to subtract from BenchmarkProcess.
 func BenchmarkRead(b *testing.B) {
 	p := demoPipeline(b)
@@ -109,6 +143,17 @@ func BenchmarkRead(b *testing.B) {
 // the cost grows linearly with the points.
 func BenchmarkProcess1M(b *testing.B) {
 	p := demoPipeline(b)
+	data := bigTrace(b, p)
+	b.ResetTimer()
+	for b.Loop() {
+		if _, err := p.Process(context.Background(), "big.csv", data, time.Unix(0, 0)); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// bigTrace is the demo lot's 30 minutes interpolated onto 1,000,000 points.
+func bigTrace(b *testing.B, p *Pipeline) []byte {
 	src, err := examples.FS.ReadFile("data/T998-26-1141.csv")
 	if err != nil {
 		b.Fatal(err)
@@ -129,13 +174,7 @@ func BenchmarkProcess1M(b *testing.B) {
 		y := d.Trace.Signal[k]*(1-f) + d.Trace.Signal[k+1]*f
 		fmt.Fprintf(&sb, "%.6f,%.4f\n", float64(i)*1800/float64(n-1), y)
 	}
-	data := []byte(sb.String())
-	b.ResetTimer()
-	for b.Loop() {
-		if _, err := p.Process(context.Background(), "big.csv", data, time.Unix(0, 0)); err != nil {
-			b.Fatal(err)
-		}
-	}
+	return []byte(sb.String())
 }
 
 func TestProcessContextCancelled(t *testing.T) {
