@@ -39,6 +39,12 @@ type Pipeline struct {
 	Steps  []steps.Step
 	Limits []*LimitDef
 	Report ReportSettings
+	// Calibration, Suitability and Replicates are the sequence-level
+	// blocks (nil when absent): they apply when a whole sequence is
+	// processed (package pipeline/batch), not to a single file.
+	Calibration *Calibration
+	Suitability *Suitability
+	Replicates  *Replicates
 	// Logo holds the bytes of the report's logo image, if any.
 	Logo []byte
 	// Refs lists the files the pipeline names (as written, relative to its
@@ -151,6 +157,9 @@ func topSchema() *hcl.BodySchema {
 		{Type: "input"},
 		{Type: "limit", LabelNames: []string{"name"}},
 		{Type: "report"},
+		{Type: "calibration"},
+		{Type: "suitability"},
+		{Type: "replicates"},
 	}}
 	for _, t := range stepTypes() {
 		s.Blocks = append(s.Blocks, hcl.BlockHeaderSchema{Type: t})
@@ -175,7 +184,7 @@ func (p *Pipeline) decode(body hcl.Body, src []byte) hcl.Diagnostics {
 	done := map[string]bool{}
 	for _, b := range content.Blocks {
 		switch b.Type {
-		case "pipeline", "input", "report":
+		case "pipeline", "input", "report", "calibration", "suitability", "replicates":
 			if prev := once[b.Type]; prev != nil {
 				diags = append(diags, &hcl.Diagnostic{Severity: hcl.DiagError, Summary: "Duplicate " + b.Type + " block",
 					Detail:  fmt.Sprintf("a pipeline has one %s block; the first is at line %d", b.Type, prev.DefRange.Start.Line),
@@ -189,6 +198,12 @@ func (p *Pipeline) decode(body hcl.Body, src []byte) hcl.Diagnostics {
 				diags = append(diags, p.decodeHeader(b)...)
 			case "input":
 				diags = append(diags, p.decodeInput(b)...)
+			case "calibration":
+				diags = append(diags, p.decodeCalibration(b)...)
+			case "suitability":
+				diags = append(diags, p.decodeSuitability(b)...)
+			case "replicates":
+				diags = append(diags, p.decodeReplicates(b)...)
 			default:
 				diags = append(diags, p.decodeReport(b)...)
 			}

@@ -29,6 +29,7 @@ type Record struct {
 	Limits     []LimitRec     `json:"limits"`
 	Verdict    string         `json:"verdict"`
 	Warnings   []string       `json:"warnings"`
+	Batch      *BatchRec      `json:"batch,omitempty"`
 	Report     ReportSettings `json:"report"`
 	Trace      *TraceRec      `json:"trace"`
 }
@@ -45,6 +46,9 @@ type Provenance struct {
 	InputSHA256  string `json:"input_sha256"`
 	// ProcessedAt is RFC 3339 UTC; it honours SOURCE_DATE_EPOCH.
 	ProcessedAt string `json:"processed_at"`
+	// LedgerHead names the watcher's ledger entry the record was made under,
+	// as "SEQUENCE:SHA256"; empty outside the watcher.
+	LedgerHead string `json:"ledger_head,omitempty"`
 }
 
 // Sample is the file's metadata, in file order.
@@ -148,6 +152,45 @@ type LimitRec struct {
 	Rounding string   `json:"rounding"`
 	Status   string   `json:"status"`
 	Reason   string   `json:"reason,omitempty"`
+}
+
+// BatchRec is an injection's part of a sequence (absent for a file
+// processed on its own): where it stands, what it is, the amounts read from
+// the sequence's calibration and whether its results may be used.
+type BatchRec struct {
+	SequenceFile   string `json:"sequence_file"`
+	SequenceSHA256 string `json:"sequence_sha256"`
+	// Injection is the 1-based position in the sequence, ID its label.
+	Injection int    `json:"injection"`
+	ID        string `json:"id"`
+	// Role is blank, calibration, suitability, check or sample.
+	Role      string `json:"role"`
+	Standard  string `json:"standard,omitempty"`
+	Lot       string `json:"lot,omitempty"`
+	SampleID  string `json:"sample_id,omitempty"`
+	Replicate int    `json:"replicate,omitempty"`
+	// Dilution multiplies the amounts read from the calibration (samples).
+	Dilution float64     `json:"dilution,omitempty"`
+	Amounts  []AmountRec `json:"amounts,omitempty"`
+	// Status is "valid", "invalid" (a failed gate or calibration: the
+	// results may not be used), or "failed" (a standard that failed its
+	// own gate).
+	Status  string   `json:"status"`
+	Reasons []string `json:"reasons,omitempty"`
+	// LotRecord names the lot record that uses this injection.
+	LotRecord string `json:"lot_record,omitempty"`
+}
+
+// AmountRec is one calibrated component's amount in an injection. Amount
+// is null when there is none; InRange is false for an amount outside the
+// calibrated range, which is flagged in Note and never used as a result.
+type AmountRec struct {
+	Component string   `json:"component"`
+	Response  *float64 `json:"response"`
+	Amount    *float64 `json:"amount"`
+	Unit      string   `json:"unit"`
+	InRange   bool     `json:"in_range"`
+	Note      string   `json:"note,omitempty"`
 }
 
 // TraceRec keeps the signals the reports draw. Times are implied by the even

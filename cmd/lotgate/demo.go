@@ -54,7 +54,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) int {
 			return exitFileFail
 		}
 	}
-	p, err := pipeline.Load(copied[0])
+	p, err := loadPipeline(copied[0])
 	if err != nil {
 		fmt.Fprintln(stderr, describe(err))
 		return exitUsage
@@ -69,5 +69,5 @@ func cmdDemo(args []string, stdout, stderr io.Writer) int {
 		return exitFileFail
 	}
 	fmt.Fprintf(stdout, "\nTry: lotgate run -p %s -o OUTDIR %s\n", copied[0], filepath.Join(inDir, "*.csv"))
-	return exitOK
+	return demoSequences(*out, inDir, stdout, stderr)
 }

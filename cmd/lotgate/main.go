@@ -27,7 +27,16 @@ const usage = `lotgate — release solvent lots on GC results through a declared
 Usage:
   lotgate run -p PIPELINE -o OUTDIR FILE...   process data files, write OUTDIR/<file>.json
   lotgate check PIPELINE...                   check pipelines and show every mistake
+  lotgate batch -p PIPELINE -o OUTDIR SEQUENCE
+                                              process a sequence: calibration, gates, lot verdicts
+  lotgate freeze PIPELINE -o FILE.lotgate     freeze a pipeline version into one bundle file
+  lotgate replay BUNDLE RECORD.json [DATA]    re-run a record's raw data, compare with the record
+  lotgate replay --with BUNDLE RECORD.json... what a new pipeline version would change
+  lotgate diff BUNDLE_A BUNDLE_B              list the settings two pipeline versions differ in
   lotgate demo [-o DIR]                       run the bundled demo (invented scenario)
+  lotgate watch -p PIPELINE --inbox DIR -o OUTDIR
+                                              process files dropped into a folder, exactly once
+  lotgate ledger verify OUTDIR                check a watcher's ledger and its documents
   lotgate version                             print the version
   lotgate help [COMMAND]                      show help
 
@@ -50,8 +59,20 @@ func run(args []string, stdout, stderr io.Writer) int {
 		return cmdRun(rest, stdout, stderr)
 	case "check":
 		return cmdCheck(rest, stdout, stderr)
+	case "batch":
+		return cmdBatch(rest, stdout, stderr)
 	case "demo":
 		return cmdDemo(rest, stdout, stderr)
+	case "watch":
+		return cmdWatch(rest, stdout, stderr)
+	case "ledger":
+		return cmdLedger(rest, stdout, stderr)
+	case "freeze":
+		return cmdFreeze(rest, stdout, stderr)
+	case "replay":
+		return cmdReplay(rest, stdout, stderr)
+	case "diff":
+		return cmdDiff(rest, stdout, stderr)
 	case "version", "--version", "-version":
 		fmt.Fprintln(stdout, "lotgate", versionString())
 		return exitOK

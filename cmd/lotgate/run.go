@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"lotgate/pipeline"
+	"lotgate/pipeline/bundle"
 	"lotgate/reports"
 )
 
@@ -35,8 +36,7 @@ Flags:
 type outcome struct {
 	file    string
 	rec     *pipeline.Record
-	path    string
-	changed bool
+	outputs []reports.Output
 	err     error
 }
 
@@ -63,7 +63,7 @@ func cmdRun(args []string, stdout, stderr io.Writer) int {
 	case *workers < 1:
 		return usageError(stderr, "run", fmt.Errorf("--workers must be at least 1, not %d", *workers))
 	}
-	p, err := pipeline.Load(pipe)
+	p, err := loadPipeline(pipe)
 	if err != nil {
 		fmt.Fprintln(stderr, describe(err))
 		return exitUsage
@@ -109,7 +109,7 @@ func processOne(ctx context.Context, p *pipeline.Pipeline, file, out string, rep
 	o := outcome{file: file}
 	o.rec, o.err = p.ProcessFile(ctx, file, at)
 	if o.err == nil {
-		o.path, o.changed, o.err = reports.WriteJSON(out, o.rec, replace)
+		o.outputs, o.err = reports.WriteAll(out, reports.Stem(file), o.rec, p.Logo, replace)
 	}
 	return o
 }
@@ -124,10 +124,10 @@ func report(results []outcome, stdout, stderr io.Writer) int {
 			continue
 		}
 		note := ""
-		if !o.changed {
+		if !o.outputs[0].Changed {
 			note = " (unchanged)"
 		}
-		fmt.Fprintf(stdout, "%-22s %-12s %s%s%s\n", filepath.Base(o.file), verdictWord(o.rec.Verdict), failures(o.rec), o.path, note)
+		fmt.Fprintf(stdout, "%-22s %-12s %s%s%s\n", filepath.Base(o.file), verdictWord(o.rec.Verdict), failures(o.rec), paths(o.outputs), note)
 		if o.rec.Verdict != "pass" && status == exitOK {
 			status = exitVerdict
 		}
@@ -156,6 +156,19 @@ func failures(rec *pipeline.Record) string {
 	return strings.Join(parts, "; ") + " → "
 }
 
+// paths lists the documents written: the record's path, then the other
+// formats' extensions.
+func paths(outs []reports.Output) string {
+	s := outs[0].Path
+	for _, o := range outs[1:] {
+		s += " +" + filepath.Ext(o.Path)
+	}
+	return s
+}
+
+// loadPipeline loads the pipeline every command works with.
+func loadPipeline(path string) (*pipeline.Pipeline, error) { return bundle.Load(path) }
+
 func oneLine(err error) string { return strings.ReplaceAll(err.Error(), "\n", "; ") }
 
 // describe turns a pipeline load error into the text shown to the user.
@@ -171,9 +184,9 @@ func describe(err error) string {
 func duplicateNames(files []string) string {
 	seen := map[string]string{}
 	for _, f := range files {
-		n := reports.RecordName(f)
+		n := reports.Stem(f)
 		if prev, ok := seen[n]; ok {
-			return fmt.Sprintf("%s and %s would both be written as %s; process them into different folders", prev, f, n)
+			return fmt.Sprintf("%s and %s would both be written as %s.*; process them into different folders", prev, f, n)
 		}
 		seen[n] = f
 	}
