@@ -8,10 +8,12 @@ import "embed"
 
 //go:generate go run ./gen
 
-// FS holds the demo pipeline (toluene-release.hcl), the invented works'
-// logo (okkerby-logo.png) and the data (data/*.csv).
+// FS holds the demo pipeline (toluene-release.hcl, revision 3), its next
+// revision with a tightened limit (toluene-release-r4.hcl, for the
+// change-impact walk-through), the invented works' logo (okkerby-logo.png)
+// and the data (data/*.csv).
 //
-//go:embed toluene-release.hcl okkerby-logo.png data/*.csv
+//go:embed toluene-release.hcl toluene-release-r4.hcl okkerby-logo.png data/*.csv
 var FS embed.FS
 
 // Pipeline is the demo pipeline's file name inside FS.

@@ -4,11 +4,9 @@ import (
 	"errors"
 	"fmt"
 	"io"
-
-	"lotgate/pipeline"
 )
 
-const checkHelp = `Usage: lotgate check PIPELINE...
+const checkHelp = `Usage: lotgate check PIPELINE|BUNDLE...
 
 Loads each pipeline and reports every mistake with its file, line, column and
 the source around it. Prints a one-line summary of each valid pipeline.
@@ -26,7 +24,7 @@ func cmdCheck(args []string, stdout, stderr io.Writer) int {
 	}
 	status := exitOK
 	for _, f := range files {
-		p, err := pipeline.Load(f)
+		p, err := loadPipeline(f)
 		if err != nil {
 			fmt.Fprintln(stderr, describe(err))
 			status = exitUsage

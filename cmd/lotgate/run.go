@@ -43,7 +43,7 @@ type outcome struct {
 func cmdRun(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("run", runHelp, stdout)
 	var pipe, out string
-	fs.StringVar(&pipe, "p", "", "pipeline file (.hcl)")
+	fs.StringVar(&pipe, "p", "", "pipeline file (.hcl) or frozen bundle (.lotgate)")
 	fs.StringVar(&pipe, "pipeline", "", "same as -p")
 	fs.StringVar(&out, "o", "", "output folder for records (created if missing)")
 	fs.StringVar(&out, "out", "", "same as -o")
