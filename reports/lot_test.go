@@ -77,7 +77,7 @@ func TestLotPDF(t *testing.T) {
 		verdict string
 		want    []string
 	}{
-		{batch.Released, []string{"Lot certificate of analysis", "Lot T-1 RELEASED", "conforms", "25.03; 25.17"}},
+		{batch.Released, []string{"Lot certificate of analysis", "Lot T-1 RELEASED", "conforms", "25.0; 25.2"}},
 		{batch.InvalidRun, []string{"Lot summary — no certificate", "INVALID RUN", "no certificate is issued", "bracketing drift",
 			"invalid run", "fails"}},
 		{batch.Rejected, []string{"Lot T-1 REJECTED"}},

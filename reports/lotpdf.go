@@ -837,9 +837,9 @@ func drawResidualPlot(doc *fpdf.Fpdf, c batch.CalComponentRec, unit string, x, y
 func (d *lotDoc) sequence() {
 	d.section("Sequence", 14)
 	t := d.table("Sequence", 7.5, 2,
-		column{head: "No.", share: 6, right: true}, column{head: "ID", share: 8, inset: 2},
-		column{head: "Role", share: 13}, column{head: "Standard / sample", share: 22},
-		column{head: "Data file", share: 24}, column{head: "Status", share: 40})
+		column{head: "No.", share: 5, right: true}, column{head: "ID", share: 7, inset: 2},
+		column{head: "Role", share: 12}, column{head: "Standard / sample", share: 26},
+		column{head: "Data file", share: 22}, column{head: "Status", share: 40})
 	t.start(6)
 	for _, in := range d.lot.Injections {
 		what := in.Standard

@@ -97,7 +97,7 @@ func TestBatchCommand(t *testing.T) {
 	if code != exitFileFail || !strings.Contains(stderr, "certificate from an earlier run") {
 		t.Errorf("stale certificate: exit %d, stderr %q", code, stderr)
 	}
-	if !strings.Contains(stderr, "processing 18/18") || !strings.Contains(stderr, "writing 19/19 lot-T998-26-1151") {
+	if !strings.Contains(stderr, "processing 18/18") || !strings.Contains(stderr, "writing 19/19") || !strings.Contains(stderr, "lot-T998-26-1151") {
 		t.Errorf("progress lines missing:\n%s", stderr)
 	}
 	code, stdout, stderr = runCLI(t, "batch", "-p", pipe, "-o", out, "--replace", "--progress", "bar", "--workers", "1", seq)

@@ -38,7 +38,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "lotgate demo: %v\n", err)
 		return exitFileFail
 	}
-	files := []string{examples.Pipeline, "okkerby-logo.png"}
+	files := []string{examples.Pipeline, "okkerby-logo.png", "toluene-release-r4.hcl"}
 	data, _ := fs.Glob(examples.FS, "data/*.csv")
 	files = append(files, data...)
 	var copied []string
@@ -64,7 +64,7 @@ func cmdDemo(args []string, stdout, stderr io.Writer) int {
 		return usageError(stderr, "demo", err)
 	}
 	fmt.Fprintf(stdout, "lotgate demo: pipeline %q revision %d (%s)\ninputs in %s\n\n", p.Name, p.Revision, p.Description, inDir)
-	results := processAll(context.Background(), p, copied[2:], *out, true, 2, at)
+	results := processAll(context.Background(), p, copied[3:], *out, true, 2, at)
 	if report(results, stdout, stderr) == exitFileFail {
 		return exitFileFail
 	}

@@ -58,10 +58,10 @@ func (e *evaluation) lot(lot string, outs []*Outcome) *Lot {
 		l.Method.Replicates = p.Replicates.Settings
 	}
 	for _, o := range e.outs {
-		ir := InjectionRec{Number: o.Number, ID: o.ID, File: o.File, Record: stemOf(o.File) + ".json", Role: o.Role,
+		ir := InjectionRec{Number: o.Number, ID: o.ID, File: o.File, Role: o.Role,
 			Lot: o.Lot, Sample: o.Sample, Replicate: o.Replicate, Status: o.Status, Reasons: o.Reasons}
-		if o.Record != nil {
-			ir.InputSHA256 = o.Record.Provenance.InputSHA256
+		if o.Record != nil { // a file that could not be processed has no record
+			ir.InputSHA256, ir.Record = o.Record.Provenance.InputSHA256, stemOf(o.File)+".json"
 		}
 		if o.Standard != nil {
 			ir.Standard = o.Standard.Name
@@ -135,8 +135,10 @@ func (e *evaluation) sample(name string, reps []*Outcome) SampleRec {
 
 // result combines one limit over a sample's replicates: the mean of the
 // replicate values, rounded and checked as the limit says, with the
-// replicates' SD and RSD against the replicate spread allowed. applies is
-// false when the limit applies to none of the replicates.
+// replicates' SD and RSD against the replicate spread allowed. processed is
+// the number of replicates that could be processed and want the number the
+// pipeline needs (0: every replicate injected). applies is false when the
+// limit applies to none of the replicates.
 func (e *evaluation) result(d *pipeline.LimitDef, reps []*Outcome, processed, want int) (ResultRec, bool) {
 	r := ResultRec{Name: d.Name, Expr: d.Expr, Min: d.Min, Max: d.Max, Digits: d.Digits, Unit: d.Unit,
 		Rounding: string(d.Rounding), Replicates: []ReplicateRec{}}
@@ -190,10 +192,12 @@ func (e *evaluation) result(d *pipeline.LimitDef, reps []*Outcome, processed, wa
 	switch {
 	case len(problems) > 0:
 		return fail(strings.Join(problems, "; "))
-	case applied < len(reps):
-		return fail(fmt.Sprintf("the limit applies to %d of %d replicates", applied, len(reps)))
 	case processed < want:
 		return fail(fmt.Sprintf("%d of the %d replicates needed could be processed", processed, want))
+	case want == 0 && processed < len(reps):
+		return fail(fmt.Sprintf("%d of the %d replicates injected could be processed", processed, len(reps)))
+	case applied < processed:
+		return fail(fmt.Sprintf("the limit applies to %d of %d replicates", applied, processed))
 	case len(missing) > 0 && len(xs) > 0:
 		return fail(fmt.Sprintf("a value in %d of %d replicates (%s in the others): no mean can be reported",
 			len(xs), applied, strings.Join(slices.Compact(slices.Sorted(slices.Values(missing))), ", ")))

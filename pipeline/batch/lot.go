@@ -87,18 +87,20 @@ type LotMethod struct {
 
 // InjectionRec is one injection of the sequence as the lot record lists it.
 type InjectionRec struct {
-	Number      int      `json:"number"`
-	ID          string   `json:"id"`
-	File        string   `json:"file"`
-	InputSHA256 string   `json:"input_sha256"`
-	Record      string   `json:"record"`
-	Role        string   `json:"role"`
-	Standard    string   `json:"standard,omitempty"`
-	Lot         string   `json:"lot,omitempty"`
-	Sample      string   `json:"sample,omitempty"`
-	Replicate   int      `json:"replicate,omitempty"`
-	Status      string   `json:"status"`
-	Reasons     []string `json:"reasons,omitempty"`
+	Number      int    `json:"number"`
+	ID          string `json:"id"`
+	File        string `json:"file"`
+	InputSHA256 string `json:"input_sha256"`
+	// Record names the injection's record ("" when it could not be
+	// processed).
+	Record    string   `json:"record"`
+	Role      string   `json:"role"`
+	Standard  string   `json:"standard,omitempty"`
+	Lot       string   `json:"lot,omitempty"`
+	Sample    string   `json:"sample,omitempty"`
+	Replicate int      `json:"replicate,omitempty"`
+	Status    string   `json:"status"`
+	Reasons   []string `json:"reasons,omitempty"`
 }
 
 // CalibrationRec is the calibration of the sequence.

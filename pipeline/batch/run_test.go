@@ -2,7 +2,11 @@ package batch
 
 import (
 	"bytes"
+	"context"
+	"fmt"
 	"math"
+	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -196,4 +200,49 @@ func runSequenceErr(t *testing.T, standards string, runs []run) string {
 		return err.Error()
 	}
 	return ""
+}
+
+// A file that cannot be processed does not stop the others: a sample
+// replicate is missing from its result, a calibration standard fails the
+// calibration; each says why.
+func TestUnprocessableInjection(t *testing.T) {
+	cases := []struct {
+		name    string
+		corrupt int // index of the run whose file is broken
+		verdict string
+		reason  string
+	}{
+		{"sample replicate", 10, Undetermined, "1 of the 2 replicates needed could be processed"},
+		{"calibration standard", 2, InvalidRun, "calibration of A failed: injection 3 (cal2): could not be processed"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			runs := sequenceOf(standardRuns(), sampleRuns("X", 25), []run{checkRun(1)})
+			dir := t.TempDir()
+			path := writeSequence(t, dir, calStandards, runs)
+			broken := filepath.Join(dir, fmt.Sprintf("%02d-%s.csv", c.corrupt+1, runs[c.corrupt].id))
+			if err := os.WriteFile(broken, []byte("time,signal\n0,1\n"), 0o644); err != nil {
+				t.Fatal(err)
+			}
+			seq, err := Load(path)
+			if err != nil {
+				t.Fatal(err)
+			}
+			res, err := Run(context.Background(), mustPipeline(t, testPipeline+suitabilityBlock), seq, Options{Workers: 2, At: testAt})
+			if err != nil {
+				t.Fatal(err)
+			}
+			o := res.Outcomes[c.corrupt]
+			if o.Record != nil || o.Err == nil || o.Status != StatusError || !strings.Contains(o.Reasons[0], "could not be processed") {
+				t.Errorf("broken injection: status %q, reasons %v, err %v", o.Status, o.Reasons, o.Err)
+			}
+			lot := res.Lots[0]
+			if lot.Verdict != c.verdict || !strings.Contains(strings.Join(lot.Reasons, "\n"), c.reason) {
+				t.Errorf("verdict %q, reasons %q; want %q with %q", lot.Verdict, lot.Reasons, c.verdict, c.reason)
+			}
+			if in := lot.Injections[c.corrupt]; in.Record != "" || in.InputSHA256 != "" {
+				t.Errorf("the lot names a record for the broken injection: %+v", in)
+			}
+		})
+	}
 }
