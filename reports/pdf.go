@@ -979,6 +979,9 @@ func (c *cert) provenance() {
 	kv("Software", strings.TrimSpace(pv.Tool+" "+pv.Version), false)
 	kv("Pipeline file", nonEmpty(pv.PipelineFile, "—"), false)
 	kv("Pipeline SHA-256", nonEmpty(pv.PipelineSHA256, "—"), true)
+	if pv.BundleSHA256 != "" {
+		kv("Frozen bundle SHA-256", pv.BundleSHA256, true)
+	}
 	if rec.Method.Description != "" {
 		kv("Method", rec.Method.Description, false)
 	}
@@ -988,8 +991,10 @@ func (c *cert) provenance() {
 		kv("Logo file", rec.Report.LogoFile, false)
 		kv("Logo SHA-256", nonEmpty(rec.Report.LogoSHA256, "—"), true)
 	}
-	kv("Record", Stem(nonEmpty(pv.InputFile, "record"))+".json (the JSON record this certificate renders)", false)
-	kv("Record SHA-256", c.digest, true)
+	kv("Record SHA-256", c.digest+" (the JSON record this certificate renders)", true)
+	if pv.LedgerHead != "" {
+		kv("Ledger entry", pv.LedgerHead, true)
+	}
 	kv("Processed at", nonEmpty(pv.ProcessedAt, "—"), false)
 }
 

@@ -2,6 +2,7 @@ package steps
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 
@@ -57,7 +58,9 @@ func (b *Baseline) Run(_ context.Context, r *Run) error {
 		if clip == 0 {
 			clip = dsp.DefaultClip
 		}
-		if _, err := dsp.Centre(y, z, lambda, clip, b.Tolerance, b.Iterations); err != nil {
+		if _, err := dsp.Centre(y, z, lambda, clip, b.Tolerance, b.Iterations); errors.Is(err, dsp.ErrCentreSkipped) {
+			r.Warn(fmt.Sprintf("baseline: %v; the asymmetric least squares baseline is used as it is", err))
+		} else if err != nil {
 			return fmt.Errorf("baseline: %w", err)
 		}
 	}

@@ -59,7 +59,7 @@ func cmdWatch(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("watch", watchHelp, stdout)
 	var pipe, out string
 	var opt watch.Options
-	fs.StringVar(&pipe, "p", "", "pipeline file (.hcl)")
+	fs.StringVar(&pipe, "p", "", "pipeline file (.hcl) or frozen bundle (.lotgate)")
 	fs.StringVar(&pipe, "pipeline", "", "same as -p")
 	fs.StringVar(&opt.Inbox, "inbox", "", "the drop folder (must exist)")
 	fs.StringVar(&out, "o", "", "output folder: documents, ledger, lock (created if missing)")

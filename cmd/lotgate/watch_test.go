@@ -10,6 +10,7 @@ import (
 	"errors"
 	"fmt"
 	"io/fs"
+	"maps"
 	"math"
 	"math/rand/v2"
 	"os"
@@ -17,8 +18,8 @@ import (
 	"path/filepath"
 	"regexp"
 	"slices"
-	"strings"
 	"strconv"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"syscall"
@@ -111,6 +112,8 @@ func synth(i int) []byte {
 	return b.Bytes()
 }
 
+// digest is the SHA-256 of b, computed here independently of the watcher
+// (crypto/sha256, FIPS 180-4; common practice).
 func digest(b []byte) string {
 	sum := sha256.Sum256(b)
 	return hex.EncodeToString(sum[:])
@@ -199,6 +202,10 @@ func (f *fixture) start(env []string, extra ...string) *proc {
 	}
 	go func() { p.err = p.cmd.Wait(); close(p.done) }()
 	go p.sampleRSS()
+	f.t.Cleanup(func() { // a failed test leaves no watcher behind
+		p.cmd.Process.Kill()
+		<-p.done
+	})
 	return p
 }
 
@@ -604,17 +611,21 @@ func testSlowWriter(t *testing.T, bin string) {
 	}
 	const chunks = 8
 	var lastWrite time.Time
+	from := 0
 	for k := range chunks {
-		from, to := len(data)*k/chunks, len(data)*(k+1)/chunks
+		// Every chunk ends inside a line, so that however long a pause
+		// lasts, only the settle time and the completeness check decide.
+		to := len(data) * (k + 1) / chunks
+		for to < len(data) && data[to-1] == '\n' {
+			to++
+		}
 		if _, err := fh.Write(data[from:to]); err != nil {
 			t.Fatal(err)
 		}
 		lastWrite = time.Now()
+		from = to
 		pause := 300 * time.Millisecond
 		if k == chunks/2 {
-			if data[to-1] == '\n' {
-				t.Fatal("the long pause must fall inside a line")
-			}
 			pause = 1800 * time.Millisecond
 		}
 		if k < chunks-1 {
@@ -669,13 +680,20 @@ func testCrash(t *testing.T, bin string) {
 				t.Fatalf("crash %d (%s): exit %d\n%s", k, spec, code, tail(p.stderr.String(), 3000))
 			}
 		} else {
-			// A random moment once the round's files are being taken.
+			// A random moment while the round's files are processed: after
+			// a random number of new ledger entries, plus up to 2 ms.
 			before := len(f.entries())
+			target := before + 2 + rng.IntN(24)
 			p = f.start(nil, "--until-idle")
-			for deadline := time.Now().Add(10 * time.Second); len(f.entries()) < before+2 && time.Now().Before(deadline); {
-				time.Sleep(time.Millisecond)
+			for deadline := time.Now().Add(10 * time.Second); len(f.entries()) < target && time.Now().Before(deadline); {
+				select {
+				case <-p.done:
+				case <-time.After(time.Millisecond):
+					continue
+				}
+				break
 			}
-			time.Sleep(time.Duration(rng.IntN(100000)) * time.Microsecond)
+			time.Sleep(time.Duration(rng.IntN(2000)) * time.Microsecond)
 			p.cmd.Process.Kill()
 			if p.wait(t, time.Minute) == -1 {
 				random++
@@ -1008,12 +1026,23 @@ func testDemoWatch(t *testing.T, bin string) {
 	}
 	f.pipe = filepath.Join(filepath.Dir(f.pipe), "toluene-release.hcl")
 	want := map[string]string{"T998-26-1141.csv": "pass", "T998-26-1142.csv": "fail", "blank-26-1141.csv": "pass"}
-	for name := range want {
+	demo := slices.Sorted(maps.Keys(want))
+	for _, name := range demo {
 		b, err := os.ReadFile(filepath.Join("..", "..", "examples", "data", name))
 		if err != nil {
 			t.Fatal(err)
 		}
 		f.drop(name, b)
+	}
+	// More injections of the same samples (a new sample ID each) for the
+	// throughput figure.
+	for i := range scale(0, 57) {
+		base := demo[i%3]
+		b := f.dropped[base]
+		id := regexp.MustCompile(`(?m)^# Sample ID: .*$`).Find(b)
+		name := fmt.Sprintf("rep%02d-%s", i, base)
+		f.drop(name, bytes.Replace(b, id, append(id, fmt.Sprintf("-R%02d", i)...), 1))
+		want[name] = want[base]
 	}
 	p := f.runIdle()
 	certified := f.check(nil)
@@ -1027,4 +1056,45 @@ func testDemoWatch(t *testing.T, bin string) {
 		}
 	}
 	f.figures("demo files, all documents", p)
+}
+
+func TestWatchUsage(t *testing.T) {
+	dir := t.TempDir()
+	pipe := writeFile(t, dir, "p.hcl", smallPipeline)
+	inbox := filepath.Join(dir, "inbox")
+	os.Mkdir(inbox, 0o755)
+	cases := []struct {
+		args []string
+		env  string
+		code int
+		want string
+	}{
+		{[]string{"watch", "--inbox", inbox, "-o", dir}, "", exitUsage, "no pipeline"},
+		{[]string{"watch", "-p", pipe, "-o", dir}, "", exitUsage, "no inbox"},
+		{[]string{"watch", "-p", pipe, "--inbox", inbox}, "", exitUsage, "no output folder"},
+		{[]string{"watch", "-p", pipe, "--inbox", inbox, "-o", dir, "x.csv"}, "", exitUsage, "unexpected argument"},
+		{[]string{"watch", "-p", pipe, "--inbox", inbox, "-o", dir, "--workers", "0"}, "", exitUsage, "--workers"},
+		{[]string{"watch", "-p", pipe, "--inbox", inbox, "-o", dir, "--settle", "0s"}, "", exitUsage, "must be positive"},
+		{[]string{"watch", "-p", pipe, "--inbox", inbox, "-o", dir, "--log-format", "xml"}, "", exitUsage, "text or json"},
+		{[]string{"watch", "-p", pipe, "--inbox", filepath.Join(dir, "missing"), "-o", filepath.Join(dir, "o1")}, "", exitUsage, "the inbox must exist"},
+		{[]string{"watch", "-p", pipe, "--inbox", inbox, "-o", inbox}, "", exitUsage, "are the same folder"},
+		{[]string{"watch", "-p", pipe, "--inbox", inbox, "-o", filepath.Join(dir, "o2")}, "claimed", exitUsage, "want EVENT:N"},
+		{[]string{"ledger"}, "", exitUsage, "no subcommand"},
+		{[]string{"ledger", "check", dir}, "", exitUsage, "unknown subcommand"},
+		{[]string{"ledger", "verify"}, "", exitUsage, "give one folder"},
+		{[]string{"ledger", "verify", filepath.Join(dir, "nothing")}, "", exitUsage, "no such file"},
+	}
+	for _, c := range cases {
+		t.Setenv("LOTGATE_WATCH_CRASH_AFTER", c.env)
+		code, _, stderr := runCLI(t, c.args...)
+		if code != c.code || !strings.Contains(stderr, c.want) {
+			t.Errorf("%v: exit %d, stderr %q; want %d and %q", c.args, code, stderr, c.code, c.want)
+		}
+	}
+	for _, cmd := range []string{"watch", "ledger"} {
+		code, stdout, _ := runCLI(t, cmd, "--help")
+		if code != exitOK || !strings.Contains(stdout, "Usage: lotgate "+cmd) {
+			t.Errorf("%s --help: exit %d, %q", cmd, code, stdout)
+		}
+	}
 }

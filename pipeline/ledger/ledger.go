@@ -64,6 +64,7 @@ type Problem struct {
 	Msg  string
 }
 
+// String formats the problem as "line N: MSG".
 func (p Problem) String() string { return fmt.Sprintf("line %d: %s", p.Line, p.Msg) }
 
 // Torn describes an unfinished last line: the bytes of an append that a
@@ -207,6 +208,7 @@ type ChainError struct {
 	Problems []Problem
 }
 
+// Error lists every problem, one per line.
 func (e *ChainError) Error() string {
 	var b strings.Builder
 	fmt.Fprintf(&b, "ledger %s is damaged or was edited; refusing to use it", e.Path)

@@ -213,7 +213,7 @@ func (s *state) apply(l ledger.Line, e *Entry, live bool) error {
 		it.processedAt, it.head = e.ProcessedAt, l.Head()
 		s.own(it)
 	case EvChanged:
-		s.release(it)
+		s.disown(it)
 		it.sha, it.head = e.SHA256, l.Head()
 		if e.Size != nil {
 			it.size = *e.Size
@@ -227,10 +227,10 @@ func (s *state) apply(l ledger.Line, e *Entry, live bool) error {
 		it.outputs = e.Outputs
 	case EvRejected:
 		it.reason = e.Reason
-		s.release(it)
+		s.disown(it)
 	case EvWithdrawn, EvLost:
 		it.reason = e.Reason
-		s.release(it)
+		s.disown(it)
 	}
 	if next[it.state] == nil {
 		delete(s.open, it.id)
@@ -267,7 +267,7 @@ func (s *state) own(it *item) {
 	}
 }
 
-func (s *state) release(it *item) {
+func (s *state) disown(it *item) {
 	if s.owner[it.sha] == it.id {
 		delete(s.owner, it.sha)
 	}

@@ -235,7 +235,7 @@ func (w *Watcher) takeJob(ctx context.Context, j job) {
 	if err == nil {
 		err = w.finish(ctx, id)
 	}
-	w.settle(id, err)
+	w.release(id, err)
 	if err == nil {
 		w.done(id, j.start)
 	}

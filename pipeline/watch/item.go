@@ -22,7 +22,7 @@ type outcome int
 
 const (
 	outTaken      outcome = iota // claimed (or withdrawn): an item exists
-	outGone                      // no longer in the inbox
+	outGone                      // no longer in the inbox, or not recorded
 	outChanged                   // changed since it was seen settled
 	outIncomplete                // settled but looks unfinished
 	outBlocked                   // cannot be opened
@@ -60,7 +60,7 @@ func (w *Watcher) take(name string, c candidate) (int64, outcome, error) {
 	}
 	l, err := w.append(e)
 	if err != nil {
-		return 0, outBlocked, err
+		return 0, outGone, err
 	}
 	id := l.Seq
 	it := w.st.get(id)

@@ -233,3 +233,35 @@ func TestOverflowListsAtOnce(t *testing.T) {
 		t.Errorf("summary %+v, want all 3 found by the listing", sum)
 	}
 }
+
+// More files than the pending limit: the rest are picked up by later
+// listings as room frees, none is lost.
+func TestPendingLimit(t *testing.T) {
+	files := map[string][]byte{}
+	for i := range 12 {
+		files[fmt.Sprintf("f%02d.csv", i)] = synth(i)
+	}
+	dir := t.TempDir()
+	inbox, out, pipePath := filepath.Join(dir, "inbox"), filepath.Join(dir, "out"), filepath.Join(dir, "p.hcl")
+	os.Mkdir(inbox, 0o755)
+	os.WriteFile(pipePath, []byte(testPipeline), 0o644)
+	for name, data := range files {
+		os.WriteFile(filepath.Join(inbox, name), data, 0o644)
+	}
+	p, err := pipeline.Load(pipePath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	w, err := New(Options{Pipeline: p, Inbox: inbox, Out: out, Settle: 30 * time.Millisecond, Rescan: 50 * time.Millisecond,
+		MaxPending: 5, UntilIdle: true, Poll: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer w.Close()
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	defer cancel()
+	sum, err := w.Run(ctx)
+	if err != nil || sum.Certified+sum.Quarantined != 12 || sum.Unfinished != 0 || sum.FoundByListing != 12 {
+		t.Errorf("summary %+v, %v; want all 12 finished", sum, err)
+	}
+}

@@ -194,9 +194,6 @@ func (o *Options) resolve() error {
 	if !st.IsDir() {
 		return fmt.Errorf("inbox %s is not a folder", o.Inbox)
 	}
-	if err := os.MkdirAll(o.Out, 0o755); err != nil {
-		return err
-	}
 	for _, d := range []struct {
 		p    *string
 		name string
@@ -204,26 +201,37 @@ func (o *Options) resolve() error {
 		if *d.p == "" {
 			*d.p = filepath.Join(o.Out, d.name)
 		}
+	}
+	folders := []struct {
+		p    *string
+		role string
+	}{{&o.Inbox, "inbox"}, {&o.Out, "output folder"}, {&o.Work, "work folder"}, {&o.Archive, "archive"}, {&o.Quarantine, "quarantine"}}
+	distinct := func(resolve func(string) (string, error)) error {
+		seen := map[string]string{}
+		for _, d := range folders {
+			abs, err := resolve(*d.p)
+			if err != nil {
+				return err
+			}
+			if prev, ok := seen[abs]; ok {
+				return fmt.Errorf("the %s and the %s are the same folder (%s); each needs its own", prev, d.role, abs)
+			}
+			seen[abs], *d.p = d.role, abs
+		}
+		return nil
+	}
+	// Distinct by name before anything is made, and by what they resolve
+	// to after.
+	if err := distinct(filepath.Abs); err != nil {
+		return err
+	}
+	for _, d := range folders[1:] {
 		if err := os.MkdirAll(*d.p, 0o755); err != nil {
 			return err
 		}
 	}
-	seen := map[string]string{}
-	for _, d := range []struct {
-		p    *string
-		role string
-	}{{&o.Inbox, "inbox"}, {&o.Out, "output folder"}, {&o.Work, "work folder"}, {&o.Archive, "archive"}, {&o.Quarantine, "quarantine"}} {
-		abs, err := filepath.Abs(*d.p)
-		if err == nil {
-			abs, err = filepath.EvalSymlinks(abs)
-		}
-		if err != nil {
-			return err
-		}
-		if prev, ok := seen[abs]; ok {
-			return fmt.Errorf("the %s and the %s are the same folder (%s); each needs its own", prev, d.role, abs)
-		}
-		seen[abs], *d.p = d.role, abs
+	if err := distinct(filepath.EvalSymlinks); err != nil {
+		return err
 	}
 	for _, pair := range [][2]string{{o.Inbox, o.Work}, {o.Work, o.Archive}, {o.Work, o.Quarantine}} {
 		same, err := sameFileSystem(pair[0], pair[1])
@@ -303,7 +311,9 @@ func (w *Watcher) heldFiles() (n int, example string) {
 }
 
 // isTemporary matches the temporary files of an atomic write.
-func isTemporary(name string) bool { return strings.HasPrefix(name, ".") && strings.HasSuffix(name, ".tmp") }
+func isTemporary(name string) bool {
+	return strings.HasPrefix(name, ".") && strings.HasSuffix(name, ".tmp")
+}
 
 // sweepTemporary removes the temporary files that writes interrupted by a
 // crash left in the output and quarantine folders; they were never a
@@ -362,18 +372,21 @@ func itemOf(l ledger.Line, e Entry) int64 {
 	return 0
 }
 
-// fingerprint hashes the pipeline file and the files it names.
+// fingerprint hashes the pipeline file and the files it names (a bundle
+// is one file).
 func (w *Watcher) fingerprint() string {
 	if w.opt.PipelinePath == "" {
 		return ""
 	}
 	h := sha256.New()
 	files := []string{w.opt.PipelinePath}
-	for _, r := range w.p.Refs {
-		if !filepath.IsAbs(r) {
-			r = filepath.Join(filepath.Dir(w.opt.PipelinePath), r)
+	if w.p.Bundle == "" { // a frozen bundle carries the files it names
+		for _, r := range w.p.Refs {
+			if !filepath.IsAbs(r) {
+				r = filepath.Join(filepath.Dir(w.opt.PipelinePath), r)
+			}
+			files = append(files, r)
 		}
-		files = append(files, r)
 	}
 	for _, f := range files {
 		b, err := os.ReadFile(f)
@@ -504,6 +517,17 @@ loop:
 			w.reconcile()
 		}
 	}
+	// Stop taking files: what is queued but not started stays where it is.
+	for queued := true; queued; {
+		select {
+		case j := <-jobs:
+			if j.name == "" {
+				w.st.idle(j.item)
+			}
+		default:
+			queued = false
+		}
+	}
 	close(jobs)
 	done := make(chan struct{})
 	go func() { wg.Wait(); close(done) }()
@@ -545,14 +569,14 @@ func (w *Watcher) do(ctx context.Context, j job) {
 		return
 	}
 	err := w.finish(ctx, j.item)
-	w.settle(j.item, err)
+	w.release(j.item, err)
 	if err == nil {
 		w.done(j.item, j.start)
 	}
 }
 
-// settle records how work on an item ended.
-func (w *Watcher) settle(id int64, err error) {
+// release records how work on an item ended and frees it.
+func (w *Watcher) release(id int64, err error) {
 	w.st.idle(id)
 	w.mu.Lock()
 	if err != nil {

@@ -1,9 +1,14 @@
 package dsp
 
 import (
+	"errors"
 	"fmt"
 	"math"
 )
+
+// ErrCentreSkipped says that Centre could not centre the baseline and left
+// it as it was.
+var ErrCentreSkipped = errors.New("centre: baseline not centred")
 
 // Centre moves a baseline z from the lower edge of the noise to its middle.
 //
@@ -25,6 +30,11 @@ import (
 // a first-difference estimate it stays right for smoothed (correlated)
 // data, and the peaks, a minority of the points, do not move it. z is
 // updated in place; the number of fits is returned.
+//
+// When the noise cannot be measured (σ = 0: noise-free data) or fewer than
+// one point in twenty is left outside the signal (a trace that is nearly
+// all peak), Centre stops, leaves z as its last fit and returns
+// ErrCentreSkipped: the caller keeps the baseline it has.
 func Centre(y, z []float64, lambda, clip, tol float64, maxIter int) (int, error) {
 	n := len(y)
 	if len(z) != n {
@@ -39,6 +49,9 @@ func Centre(y, z []float64, lambda, clip, tol float64, maxIter int) (int, error)
 	var s bandSolver
 	s.resize(n)
 	sigma := residualSD(y, z, s.e)
+	if !(sigma > 0) {
+		return 0, fmt.Errorf("%w: the residuals show no noise", ErrCentreSkipped)
+	}
 	limit := clip * sigma
 	var prev []float64
 	if tol > 0 {
@@ -67,8 +80,8 @@ func Centre(y, z []float64, lambda, clip, tol float64, maxIter int) (int, error)
 		if changed == 0 {
 			break
 		}
-		if positive < 2 {
-			return fits, fmt.Errorf("centre: fewer than two points lie within %g noise SDs of the baseline", clip)
+		if positive < max(2, n/20) {
+			return fits, fmt.Errorf("%w: only %d of %d points lie in the noise band", ErrCentreSkipped, positive, n)
 		}
 		if prev != nil {
 			copy(prev, z)
