@@ -60,8 +60,8 @@ type Pipeline struct {
 	inputSettings []Setting
 }
 
-// Error is a pipeline that could not be loaded: the HCL diagnostics and the
-// source they point into.
+// Error is an HCL file (a pipeline, a sequence) that could not be loaded:
+// the diagnostics and the source they point into.
 type Error struct {
 	Diags hcl.Diagnostics
 	files map[string]*hcl.File
@@ -85,6 +85,11 @@ func (e *Error) Error() string {
 		lines = append(lines, msg)
 	}
 	return strings.Join(lines, "\n")
+}
+
+// NewError wraps diagnostics about the given parsed files.
+func NewError(diags hcl.Diagnostics, files map[string]*hcl.File) *Error {
+	return &Error{Diags: diags, files: files}
 }
 
 // Pretty writes the diagnostics with source snippets, as `lotgate check` shows them.

@@ -79,7 +79,7 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	}
 	seq, err := batch.Load(pos[0])
 	if err != nil {
-		fmt.Fprintln(stderr, describeSequence(err))
+		fmt.Fprintln(stderr, describe(err))
 		return exitUsage
 	}
 	if err := os.MkdirAll(out, 0o755); err != nil {
@@ -95,15 +95,6 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	job := batchJob{p: p, seq: seq, out: out, replace: *replace, workers: *workers, at: at,
 		progress: newProgress(stderr, *mode)}
 	return job.run(ctx, stdout, stderr)
-}
-
-// describeSequence turns a sequence error into the text shown to the user.
-func describeSequence(err error) string {
-	var se *batch.Error
-	if errors.As(err, &se) {
-		return strings.TrimRight(se.Pretty(), "\n")
-	}
-	return err.Error()
 }
 
 // batchJob is one sequence to process and write.
@@ -141,7 +132,7 @@ func (j batchJob) run(ctx context.Context, stdout, stderr io.Writer) int {
 			fmt.Fprintln(stderr, "lotgate batch: interrupted; nothing was written")
 			return exitFileFail
 		}
-		fmt.Fprintln(stderr, describeSequence(err))
+		fmt.Fprintln(stderr, describe(err))
 		return exitUsage
 	}
 	docs := j.write(res)
@@ -459,7 +450,7 @@ func demoSequences(out, inDir string, stdout, stderr io.Writer) int {
 		}
 		seq, err := batch.Load(seqPath)
 		if err != nil {
-			fmt.Fprintln(stderr, describeSequence(err))
+			fmt.Fprintln(stderr, describe(err))
 			return exitUsage
 		}
 		dst := filepath.Join(out, s.Name)

@@ -57,7 +57,7 @@ type Outcome struct {
 // gates, amounts, limits, replicates and lot verdicts. A file that cannot be
 // processed does not stop the others; what depends on it fails or is
 // undetermined, with the reason. Run returns an error only when the
-// sequence does not fit the pipeline (a *Error with diagnostics in the
+// sequence does not fit the pipeline (a *pipeline.Error with diagnostics in the
 // sequence file) or the context was cancelled.
 func Run(ctx context.Context, p *pipeline.Pipeline, seq *Sequence, opt Options) (*Result, error) {
 	if err := seq.Check(p); err != nil {

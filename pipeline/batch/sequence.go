@@ -9,7 +9,6 @@
 package batch
 
 import (
-	"bytes"
 	"crypto/sha256"
 	"encoding/hex"
 	"fmt"
@@ -108,40 +107,6 @@ type Injection struct {
 	Range    hcl.Range
 }
 
-// Error is a sequence that could not be loaded: the HCL diagnostics and the
-// source they point into.
-type Error struct {
-	Diags hcl.Diagnostics
-	files map[string]*hcl.File
-}
-
-// Error formats every diagnostic as "file:line,col: summary; detail".
-func (e *Error) Error() string {
-	var lines []string
-	for _, d := range e.Diags {
-		if d.Severity != hcl.DiagError {
-			continue
-		}
-		msg := d.Summary
-		if d.Subject != nil {
-			msg = fmt.Sprintf("%s:%d,%d: %s", d.Subject.Filename, d.Subject.Start.Line, d.Subject.Start.Column, d.Summary)
-		}
-		if d.Detail != "" {
-			msg += "; " + d.Detail
-		}
-		lines = append(lines, msg)
-	}
-	return strings.Join(lines, "\n")
-}
-
-// Pretty writes the diagnostics with source snippets.
-func (e *Error) Pretty() string {
-	var b bytes.Buffer
-	w := hcl.NewDiagnosticTextWriter(&b, e.files, 100, false)
-	_ = w.WriteDiagnostics(e.Diags)
-	return b.String()
-}
-
 // Load reads and parses the sequence file at path; data files are found
 // relative to its folder.
 func Load(path string) (*Sequence, error) {
@@ -159,14 +124,14 @@ func Parse(src []byte, filename string) (*Sequence, error) {
 	f, diags := hclsyntax.ParseConfig(src, filename, hcl.InitialPos)
 	files := map[string]*hcl.File{filename: f}
 	if diags.HasErrors() {
-		return nil, &Error{Diags: diags, files: files}
+		return nil, pipeline.NewError(diags, files)
 	}
 	sum := sha256.Sum256(src)
 	s := &Sequence{File: filepath.Base(filename), Digest: hex.EncodeToString(sum[:]),
 		dir: filepath.Dir(filename), file: f, name: filename}
 	diags = append(diags, s.decode(f.Body)...)
 	if diags.HasErrors() {
-		return nil, &Error{Diags: diags, files: files}
+		return nil, pipeline.NewError(diags, files)
 	}
 	return s, nil
 }
@@ -557,7 +522,7 @@ func (s *Sequence) Check(p *pipeline.Pipeline) error {
 		}
 	}
 	if diags.HasErrors() {
-		return &Error{Diags: diags, files: map[string]*hcl.File{s.name: s.file}}
+		return pipeline.NewError(diags, map[string]*hcl.File{s.name: s.file})
 	}
 	return nil
 }

@@ -109,7 +109,7 @@ func TestSequenceDiagnostics(t *testing.T) {
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
 			_, err := Parse([]byte(c.src), "night.hcl")
-			var se *Error
+			var se *pipeline.Error
 			if !errors.As(err, &se) {
 				t.Fatalf("want a diagnostic error, got %v", err)
 			}
