@@ -48,11 +48,8 @@ Flags:
 
 func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("batch", batchHelp, stdout)
-	var pipe, out string
-	fs.StringVar(&pipe, "p", "", "pipeline file (.hcl) or frozen bundle")
-	fs.StringVar(&pipe, "pipeline", "", "same as -p")
-	fs.StringVar(&out, "o", "", "output folder (created if missing)")
-	fs.StringVar(&out, "out", "", "same as -o")
+	pipeFlag := pipelineFlag(fs)
+	outFlag := stringFlag(fs, "o", "out", "output folder (created if missing)")
 	replace := fs.Bool("replace", false, "overwrite existing documents whose content differs")
 	workers := fs.Int("workers", runtime.GOMAXPROCS(0), "injections processed at once")
 	mode := fs.String("progress", "auto", "progress display: auto (a bar on a terminal), bar, lines or none")
@@ -60,6 +57,7 @@ func cmdBatch(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return usageError(stderr, "batch", err)
 	}
+	pipe, out := *pipeFlag, *outFlag
 	switch {
 	case pipe == "":
 		return usageError(stderr, "batch", errors.New("no pipeline: give -p PIPELINE"))

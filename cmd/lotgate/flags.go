@@ -56,3 +56,16 @@ func usageError(stderr io.Writer, cmd string, err error) int {
 	fmt.Fprintf(stderr, "lotgate %s: %v (see lotgate %s --help)\n", cmd, err, cmd)
 	return exitUsage
 }
+
+// stringFlag defines a flag with a short and a long name sharing one value.
+func stringFlag(fs *flag.FlagSet, short, long, usage string) *string {
+	v := new(string)
+	fs.StringVar(v, short, "", usage)
+	fs.StringVar(v, long, "", "same as -"+short)
+	return v
+}
+
+// pipelineFlag is the -p/--pipeline flag every processing command takes.
+func pipelineFlag(fs *flag.FlagSet) *string {
+	return stringFlag(fs, "p", "pipeline", "pipeline file (.hcl) or frozen bundle (.lotgate)")
+}

@@ -42,17 +42,15 @@ type outcome struct {
 
 func cmdRun(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("run", runHelp, stdout)
-	var pipe, out string
-	fs.StringVar(&pipe, "p", "", "pipeline file (.hcl) or frozen bundle (.lotgate)")
-	fs.StringVar(&pipe, "pipeline", "", "same as -p")
-	fs.StringVar(&out, "o", "", "output folder for records (created if missing)")
-	fs.StringVar(&out, "out", "", "same as -o")
+	pipeFlag := pipelineFlag(fs)
+	outFlag := stringFlag(fs, "o", "out", "output folder for records (created if missing)")
 	replace := fs.Bool("replace", false, "overwrite existing records whose content differs")
 	workers := fs.Int("workers", runtime.GOMAXPROCS(0), "files processed at once")
 	files, err := parse(fs, args)
 	if err != nil {
 		return usageError(stderr, "run", err)
 	}
+	pipe, out := *pipeFlag, *outFlag
 	switch {
 	case pipe == "":
 		return usageError(stderr, "run", errors.New("no pipeline: give -p PIPELINE"))

@@ -57,13 +57,10 @@ Flags:
 
 func cmdWatch(args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("watch", watchHelp, stdout)
-	var pipe, out string
 	var opt watch.Options
-	fs.StringVar(&pipe, "p", "", "pipeline file (.hcl) or frozen bundle (.lotgate)")
-	fs.StringVar(&pipe, "pipeline", "", "same as -p")
+	pipeFlag := pipelineFlag(fs)
 	fs.StringVar(&opt.Inbox, "inbox", "", "the drop folder (must exist)")
-	fs.StringVar(&out, "o", "", "output folder: documents, ledger, lock (created if missing)")
-	fs.StringVar(&out, "out", "", "same as -o")
+	outFlag := stringFlag(fs, "o", "out", "output folder: documents, ledger, lock (created if missing)")
 	fs.StringVar(&opt.Work, "work", "", "work folder (default OUTDIR/work)")
 	fs.StringVar(&opt.Archive, "archive", "", "archive folder (default OUTDIR/archive)")
 	fs.StringVar(&opt.Quarantine, "quarantine", "", "quarantine folder (default OUTDIR/quarantine)")
@@ -80,6 +77,7 @@ func cmdWatch(args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return usageError(stderr, "watch", err)
 	}
+	pipe, out := *pipeFlag, *outFlag
 	rescanGiven := false
 	fs.Visit(func(f *flag.Flag) { rescanGiven = rescanGiven || f.Name == "rescan" })
 	switch {
