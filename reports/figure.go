@@ -271,16 +271,22 @@ const figureDPI = 300
 func drawPanel(doc *fpdf.Fpdf, rec *pipeline.Record, spec panelSpec, x, y, w, h float64) {
 	p := panelPlot(rec, spec, w)
 	doc.ClipRect(x, y, w, h, false)
-	c := newPDFCanvas(doc, x, y, w, h)
-	p.Draw(draw.New(c))
-	c.close()
+	drawPlot(doc, p, x, y, w, h)
 	doc.ClipEnd()
 }
 
-// panelPlot builds the plot of one panel, w millimetres wide.
-func panelPlot(rec *pipeline.Record, spec panelSpec, w float64) *plot.Plot {
-	tr := rec.Trace
-	sig := traceSignal(tr)
+// drawPlot draws p into the box (x, y, w, h), in millimetres from the
+// page's top-left corner.
+func drawPlot(doc *fpdf.Fpdf, p *plot.Plot, x, y, w, h float64) {
+	c := newPDFCanvas(doc, x, y, w, h)
+	p.Draw(draw.New(c))
+	c.close()
+}
+
+// newPlot makes a plot in the documents' style: Liberation Sans in black,
+// thin axes with niceTicks, and a light grid. The axis labels are cleaned
+// for the fonts; titlePad is the space under the title, in points.
+func newPlot(title string, titlePad float64, xLabel, yLabel string) *plot.Plot {
 	p := plot.New()
 	style := func(s *text.Style, size float64) {
 		s.Font = font.From(plotSans, vg.Points(size))
@@ -291,10 +297,8 @@ func panelPlot(rec *pipeline.Record, spec panelSpec, w float64) *plot.Plot {
 	style(&p.Y.Label.TextStyle, 7.5)
 	style(&p.X.Tick.Label, 6.5)
 	style(&p.Y.Tick.Label, 6.5)
-	p.Title.Text = spec.title
-	p.Title.Padding = vg.Points(4)
-	p.X.Label.Text = "Time (" + clean(nonEmpty(rec.Units.Time, "min")) + ")"
-	p.Y.Label.Text = "Signal (" + clean(nonEmpty(rec.Units.Signal, "signal units")) + ")"
+	p.Title.Text, p.Title.Padding = title, vg.Points(titlePad)
+	p.X.Label.Text, p.Y.Label.Text = clean(xLabel), clean(yLabel)
 	for _, ax := range []*plot.Axis{&p.X, &p.Y} {
 		ax.Tick.Marker = niceTicks{}
 		ax.Width = vg.Points(0.5)
@@ -305,6 +309,15 @@ func panelPlot(rec *pipeline.Record, spec panelSpec, w float64) *plot.Plot {
 	grid.Vertical.Color, grid.Horizontal.Color = gridColor, gridColor
 	grid.Vertical.Width, grid.Horizontal.Width = vg.Points(0.3), vg.Points(0.3)
 	p.Add(grid)
+	return p
+}
+
+// panelPlot builds the plot of one panel, w millimetres wide.
+func panelPlot(rec *pipeline.Record, spec panelSpec, w float64) *plot.Plot {
+	tr := rec.Trace
+	sig := traceSignal(tr)
+	p := newPlot(spec.title, 4, "Time ("+nonEmpty(rec.Units.Time, "min")+")",
+		"Signal ("+nonEmpty(rec.Units.Signal, "signal units")+")")
 
 	columns := int(math.Ceil(w / 25.4 * figureDPI))
 	line := func(v []float64, c color.Color, dashes []vg.Length) traceLine {

@@ -9,13 +9,10 @@ import (
 	"slices"
 	"strconv"
 	"strings"
-	"time"
 
 	"codeberg.org/go-pdf/fpdf"
 	"gonum.org/v1/plot"
-	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 
@@ -47,110 +44,24 @@ func WriteLotPDF(w io.Writer, lot *batch.Lot, logo []byte) error {
 	return nil
 }
 
-// lotDoc is a lot summary being laid out, in the certificate's style:
-// fonts, colours, geometry and text wrapping are the certificate's.
+// lotDoc is a lot summary being laid out, in the certificate's style.
 type lotDoc struct {
-	doc     *fpdf.Fpdf
-	lot     *batch.Lot
-	digest  string // SHA-256 of the lot record's JSON bytes
-	logo    *logoImage
-	pageH   float64
-	left    float64 // body's left and right edges
-	right   float64
-	bottom  float64 // body's lowest y
-	y       float64 // where the next block goes
-	headerH float64
-}
-
-// Text and drawing primitives. Sizes are in points, positions in
-// millimetres.
-
-func (d *lotDoc) font(family, style string, size float64) { d.doc.SetFont(family, style, size) }
-
-func (d *lotDoc) ink(col rgb) { d.doc.SetTextColor(col.r, col.g, col.b) }
-
-// text draws s with its line box's top-left corner at (x, top).
-func (d *lotDoc) text(x, top, size float64, s string) { d.doc.Text(x, top+0.95*size*mmPerPoint, s) }
-
-// textRight draws s ending at x.
-func (d *lotDoc) textRight(x, top, size float64, s string) {
-	d.text(x-d.doc.GetStringWidth(s), top, size, s)
-}
-
-// wrap breaks s into lines no wider than w in the current font, as the
-// certificate does.
-func (d *lotDoc) wrap(s string, w float64, maxLines int) []string {
-	return (&cert{doc: d.doc}).wrap(s, w, maxLines)
-}
-
-// hrule draws a full-width horizontal line at y.
-func (d *lotDoc) hrule(y, width float64, col rgb) {
-	d.doc.SetDrawColor(col.r, col.g, col.b)
-	d.doc.SetLineWidth(width)
-	d.doc.Line(d.left, y, d.right, y)
-}
-
-// resetGraphics re-sets the drawing state after a plot.
-func (d *lotDoc) resetGraphics() {
-	d.doc.SetDashPattern(nil, 0)
-	d.doc.SetLineWidth(0.2)
-	d.doc.SetDrawColor(0, 0, 0)
-	d.doc.SetFillColor(255, 255, 255)
-	d.ink(black)
-}
-
-// headerGeometry returns the left header column's x and width and the
-// right column's width.
-func (d *lotDoc) headerGeometry() (leftX, leftW, rightW float64) {
-	leftX = d.left
-	if d.logo != nil {
-		leftX += d.logo.w + 4
-	}
-	rightW = 0.4 * (d.right - d.left)
-	return leftX, d.right - rightW - 4 - leftX, rightW
+	*layout
+	lot    *batch.Lot
+	digest string // SHA-256 of the lot record's JSON bytes
 }
 
 func newLotDoc(lot *batch.Lot, logo []byte) (*lotDoc, error) {
-	size := "a4"
-	switch lot.Report.Paper {
-	case "", "A4":
-	case "Letter":
-		size = "letter"
-	default:
-		return nil, fmt.Errorf("paper %q is not known: want A4 or Letter", lot.Report.Paper)
-	}
-	at, err := time.Parse(time.RFC3339, lot.Provenance.ProcessedAt)
+	l, err := newLayout(lot.Report, lot.Provenance.ProcessedAt, lot.Provenance.Tool+" "+lot.Provenance.Version,
+		lotTitle(lot)+" — lot "+nonEmpty(lot.Lot, "—"), headline{text: lotTitle(lot), size: 13, lines: 2}, logo)
 	if err != nil {
-		return nil, fmt.Errorf("processed_at %q is not an RFC 3339 time", lot.Provenance.ProcessedAt)
-	}
-	if at.IsZero() {
-		at = time.Unix(0, 0)
+		return nil, err
 	}
 	digest, err := lotDigest(lot)
 	if err != nil {
 		return nil, err
 	}
-	doc := fpdf.NewCustom(&fpdf.InitType{OrientationStr: "P", UnitStr: "mm", SizeStr: size})
-	doc.SetCatalogSort(true)
-	doc.SetCreationDate(at.UTC())
-	doc.SetModificationDate(at.UTC())
-	doc.SetAutoPageBreak(false, 0)
-	doc.SetMargins(marginX, marginTop, marginX)
-	doc.SetCreator(lot.Provenance.Tool+" "+lot.Provenance.Version, true)
-	doc.SetTitle(lotTitle(lot)+" — lot "+nonEmpty(lot.Lot, "—"), true)
-	doc.SetSubject(strings.TrimSpace(lot.Report.Product+" "+lot.Report.Grade), true)
-	doc.SetAuthor(lot.Report.Site, true)
-	for _, f := range fonts {
-		doc.AddUTF8FontFromBytes(f.family, f.style, f.ttf)
-	}
-	pw, ph := doc.GetPageSize()
-	d := &lotDoc{doc: doc, lot: lot, digest: digest, pageH: ph, left: marginX, right: pw - marginX, bottom: ph - footerHeight}
-	if len(logo) > 0 {
-		if d.logo, err = registerLogo(doc, logo); err != nil {
-			return nil, err
-		}
-	}
-	return d, doc.Error()
+	return &lotDoc{layout: l, lot: lot, digest: digest}, nil
 }
 
 // lotTitle is the document's title: a certificate only for a released lot.
@@ -173,72 +84,8 @@ func (d *lotDoc) render() {
 	d.provenance()
 	d.signatures()
 	d.cautions()
-	d.footers()
-}
-
-// newPage starts a page with the lot summary's header.
-func (d *lotDoc) newPage() {
-	d.doc.AddPage()
-	leftX, leftW, rightW := d.headerGeometry()
-	rs := d.lot.Report
-	var left, right []styledLine
-	add := func(dst *[]styledLine, s, style string, size float64, col rgb, w float64, maxLines int) {
-		d.font(fontSans, style, size)
-		for _, l := range d.wrap(s, w, maxLines) {
-			*dst = append(*dst, styledLine{l, style, size, col})
-		}
-	}
-	add(&left, rs.Site, "B", 10.5, black, leftW, 2)
-	for _, a := range rs.Address[:min(len(rs.Address), 4)] {
-		add(&left, a, "", 8, grey, leftW, 1)
-	}
-	add(&right, lotTitle(d.lot), "B", 13, black, rightW, 2)
-	add(&right, rs.Product, "B", 9.5, black, rightW, 2)
-	add(&right, rs.Grade, "", 8.5, grey, rightW, 2)
-	h := max(blockHeight(left), blockHeight(right))
-	if d.logo != nil {
-		h = max(h, d.logo.h)
-		d.doc.ImageOptions("logo", d.left, marginTop, d.logo.w, d.logo.h, false, fpdf.ImageOptions{ImageType: "PNG"}, 0, "")
-	}
-	for i, block := range [][]styledLine{left, right} {
-		y := marginTop
-		for _, l := range block {
-			d.font(fontSans, l.style, l.size)
-			d.ink(l.col)
-			if i == 0 {
-				d.text(leftX, y, l.size, l.text)
-			} else {
-				d.textRight(d.right, y, l.size, l.text)
-			}
-			y += lineH(l.size)
-		}
-	}
-	d.headerH = h
-	d.hrule(marginTop+h+2, 0.4, black)
-	d.y = marginTop + h + 5
-}
-
-// ensure starts a new page unless h millimetres fit below d.y; it reports
-// whether it did.
-func (d *lotDoc) ensure(h float64) bool {
-	if d.y+h <= d.bottom {
-		return false
-	}
-	d.newPage()
-	return true
-}
-
-// section starts a titled section, keeping keep millimetres with its title.
-func (d *lotDoc) section(title string, keep float64) {
-	const size = 10.5
-	d.y += 3
-	d.ensure(lineH(size) + 2 + keep)
-	d.font(fontSans, "B", size)
-	d.ink(black)
-	d.text(d.left, d.y, size, clean(title))
-	d.y += lineH(size) + 0.6
-	d.hrule(d.y, 0.25, ruleGrey)
-	d.y += 1.6
+	d.footers("Lot "+nonEmpty(d.lot.Lot, "—")+" · sequence "+nonEmpty(d.lot.Sequence.Name, "—")+
+		" · lot record SHA-256 "+d.digest[:16]+"…", false)
 }
 
 // subheading writes a bold line inside a section.
@@ -250,120 +97,6 @@ func (d *lotDoc) subheading(s string, keep float64) {
 	d.ink(black)
 	d.text(d.left, d.y, size, d.wrap(s, d.right-d.left, 1)[0])
 	d.y += lineH(size) + 0.8
-}
-
-// paragraph writes wrapped text, breaking pages between lines.
-func (d *lotDoc) paragraph(s, style string, size float64, col rgb, indent float64) {
-	d.font(fontSans, style, size)
-	for _, l := range d.wrap(s, d.right-d.left-indent, 0) {
-		d.ensure(lineH(size))
-		d.font(fontSans, style, size)
-		d.ink(col)
-		d.text(d.left+indent, d.y, size, l)
-		d.y += lineH(size)
-	}
-}
-
-// lotTable is a table of the lot summary: a heading row repeated on every
-// page it reaches, cells wrapped to at most maxLines lines.
-type lotTable struct {
-	d        *lotDoc
-	cols     []column
-	widths   []float64
-	size     float64
-	maxLines int
-	title    string
-}
-
-func (d *lotDoc) table(title string, size float64, maxLines int, cols ...column) *lotTable {
-	t := &lotTable{d: d, cols: cols, size: size, maxLines: maxLines, title: title}
-	total := 0.0
-	for _, c := range cols {
-		total += c.share
-	}
-	for _, c := range cols {
-		t.widths = append(t.widths, c.share/total*(d.right-d.left))
-	}
-	return t
-}
-
-func (t *lotTable) setFont(c cell) {
-	switch {
-	case c.mono:
-		t.d.font(fontMono, "", t.size)
-	case c.bold:
-		t.d.font(fontSans, "B", t.size)
-	default:
-		t.d.font(fontSans, "", t.size)
-	}
-}
-
-func (t *lotTable) layout(cells []cell) ([][]string, float64) {
-	lines := make([][]string, len(cells))
-	n := 1
-	for i, c := range cells {
-		t.setFont(c)
-		lines[i] = t.d.wrap(c.text, t.widths[i]-2*pad-t.cols[i].inset, t.maxLines)
-		n = max(n, len(lines[i]))
-	}
-	return lines, float64(n)*lineH(t.size) + 2*pad
-}
-
-func (t *lotTable) head() []cell {
-	cells := make([]cell, len(t.cols))
-	for i, c := range t.cols {
-		cells[i] = cell{text: c.head, bold: true}
-	}
-	return cells
-}
-
-// start draws the heading row, keeping room for a first row of height first.
-func (t *lotTable) start(first float64) {
-	lines, h := t.layout(t.head())
-	t.d.ensure(h + first)
-	t.draw(t.head(), lines, h, &headFill)
-}
-
-// row draws a row, continuing the table on a new page when it does not fit.
-func (t *lotTable) row(cells ...cell) {
-	lines, h := t.layout(cells)
-	if t.d.ensure(h) {
-		t.d.font(fontSans, "B", 8.5)
-		t.d.ink(grey)
-		t.d.text(t.d.left, t.d.y, 8.5, clean(t.title)+" (continued)")
-		t.d.y += lineH(8.5) + 1
-		t.start(h)
-	}
-	t.draw(cells, lines, h, nil)
-}
-
-func (t *lotTable) draw(cells []cell, lines [][]string, h float64, fill *rgb) {
-	d := t.d
-	if fill != nil {
-		d.doc.SetFillColor(fill.r, fill.g, fill.b)
-		d.doc.Rect(d.left, d.y, d.right-d.left, h, "F")
-	}
-	x := d.left
-	for i, c := range cells {
-		t.setFont(c)
-		d.ink(black)
-		if c.color != nil {
-			d.ink(*c.color)
-		}
-		for k, l := range lines[i] {
-			top := d.y + pad + float64(k)*lineH(t.size)
-			if t.cols[i].right {
-				d.textRight(x+t.widths[i]-pad, top, t.size, l)
-			} else {
-				d.text(x+pad+t.cols[i].inset, top, t.size, l)
-			}
-		}
-		x += t.widths[i]
-	}
-	d.y += h
-	d.doc.SetDrawColor(ruleGrey.r, ruleGrey.g, ruleGrey.b)
-	d.doc.SetLineWidth(0.15)
-	d.doc.Line(d.left, d.y, d.right, d.y)
 }
 
 // lotBlock says which lot, sequence and method the summary is about.
@@ -381,7 +114,7 @@ func (d *lotDoc) lotBlock() {
 		items = append(items, [2]string{"Description", l.Sequence.Description}, [2]string{"", ""})
 	}
 	d.section("Lot", 10)
-	t := d.table("", 8.5, 3, column{share: 17}, column{share: 33}, column{share: 17}, column{share: 33})
+	t := d.newTable("", 8.5, 3, false, column{share: 17}, column{share: 33}, column{share: 17}, column{share: 33})
 	for i := 0; i < len(items); i += 2 {
 		t.row(cell{text: items[i][0], color: &grey}, cell{text: items[i][1], bold: true},
 			cell{text: items[i+1][0], color: &grey}, cell{text: items[i+1][1], bold: true})
@@ -410,35 +143,13 @@ func (d *lotDoc) verdictBlock() {
 	d.font(fontSans, "B", big)
 	head := d.wrap(words, inner, 3)
 	d.font(fontSans, "", small)
-	var notes []string
+	var notes []boxNote
 	for _, r := range d.lot.Reasons {
-		notes = append(notes, d.wrap("• "+r, inner, 4)...)
+		for _, line := range d.wrap("• "+r, inner, 4) {
+			notes = append(notes, boxNote{text: line})
+		}
 	}
-	h := float64(len(head))*lineH(big) + float64(len(notes))*lineH(small) + 6
-	if len(notes) > 0 {
-		h += 1.5
-	}
-	d.y += 4
-	d.ensure(h)
-	d.doc.SetFillColor(fill.r, fill.g, fill.b)
-	d.doc.Rect(d.left, d.y, d.right-d.left, h, "F")
-	d.doc.SetFillColor(inkCol.r, inkCol.g, inkCol.b)
-	d.doc.Rect(d.left, d.y, 1.8, h, "F")
-	y := d.y + 3
-	d.font(fontSans, "B", big)
-	d.ink(inkCol)
-	for _, l := range head {
-		d.text(d.left+5, y, big, l)
-		y += lineH(big)
-	}
-	y += 1.5
-	d.font(fontSans, "", small)
-	d.ink(black)
-	for _, l := range notes {
-		d.text(d.left+5, y, small, l)
-		y += lineH(small)
-	}
-	d.y += h
+	d.verdictBox(head, big, notes, small, inkCol, fill)
 }
 
 // conformityOf words a result's status, with invalid samples' results
@@ -467,7 +178,7 @@ func (d *lotDoc) results() {
 			d.paragraph("No specification limit applies to this sample.", "I", 8, grey, 0)
 			continue
 		}
-		t := d.table(title, 8, 3,
+		t := d.newTable(title, 8, 3, true,
 			column{head: "Test", share: 28}, column{head: "Replicates", share: 31},
 			column{head: "Result", share: 13, right: true}, column{head: "RSD %", share: 10, right: true},
 			column{head: "Specification", share: 21, inset: 3}, column{head: "Unit", share: 28},
@@ -543,7 +254,7 @@ func (d *lotDoc) suitability() {
 		return
 	}
 	d.section("System suitability", 14)
-	t := d.table("System suitability", 8, 3,
+	t := d.newTable("System suitability", 8, 3, true,
 		column{head: "Gate", share: 30}, column{head: "Criterion", share: 44},
 		column{head: "Value", share: 14, right: true}, column{head: "Result", share: 14, inset: 3})
 	t.start(7)
@@ -598,7 +309,7 @@ func (d *lotDoc) calibration() {
 		drawResidualPlot(d.doc, c, cal.Unit, d.left+0.6*w+2, d.y, 0.4*w-2, plotH)
 		d.resetGraphics()
 		d.y += plotH + 2
-		t := d.table(c.Component+" calibration points", 7.5, 2,
+		t := d.newTable(c.Component+" calibration points", 7.5, 2, true,
 			column{head: "Inj.", share: 7, right: true}, column{head: "Standard", share: 13, inset: 2},
 			column{head: "Amount", share: 12, right: true}, column{head: "Response", share: 14, right: true},
 			column{head: "Predicted", share: 14, right: true}, column{head: "Residual", share: 13, right: true},
@@ -676,33 +387,6 @@ var (
 	fitColor   = color.RGBA{R: 0xc0, G: 0x39, B: 0x2b, A: 0xff}
 	failColor  = color.RGBA{R: 0xa8, G: 0x1b, B: 0x1b, A: 0xff}
 )
-
-// newCalPlot makes a plot styled as the certificate's figure.
-func newCalPlot(title, xLabel, yLabel string) *plot.Plot {
-	p := plot.New()
-	style := func(s *text.Style, size float64) {
-		s.Font = font.From(plotSans, vg.Points(size))
-		s.Color = color.Black
-	}
-	style(&p.Title.TextStyle, 7.5)
-	style(&p.X.Label.TextStyle, 7.5)
-	style(&p.Y.Label.TextStyle, 7.5)
-	style(&p.X.Tick.Label, 6.5)
-	style(&p.Y.Tick.Label, 6.5)
-	p.Title.Text, p.Title.Padding = title, vg.Points(2)
-	p.X.Label.Text, p.Y.Label.Text = clean(xLabel), clean(yLabel)
-	for _, ax := range []*plot.Axis{&p.X, &p.Y} {
-		ax.Tick.Marker = niceTicks{}
-		ax.Width = vg.Points(0.5)
-		ax.Tick.Width = vg.Points(0.5)
-		ax.Padding = 0
-	}
-	grid := plotter.NewGrid()
-	grid.Vertical.Color, grid.Horizontal.Color = gridColor, gridColor
-	grid.Vertical.Width, grid.Horizontal.Width = vg.Points(0.3), vg.Points(0.3)
-	p.Add(grid)
-	return p
-}
 
 // points returns the calibration points with a response as (amount, f(point)),
 // the failing ones apart.
@@ -788,7 +472,7 @@ func curveOf(c batch.CalComponentRec) func(float64) float64 {
 // drawCalPlot draws the points and the fitted curve into the box (x, y, w,
 // h), in millimetres from the page's top-left corner.
 func drawCalPlot(doc *fpdf.Fpdf, c batch.CalComponentRec, unit string, x, y, w, h float64) {
-	p := newCalPlot(c.Component+": points and fit", "Amount ("+unit+")", "Response ("+c.Response+")")
+	p := newPlot(c.Component+": points and fit", 2, "Amount ("+unit+")", "Response ("+c.Response+")")
 	lo, hi := xRange(c)
 	p.X.Min, p.X.Max = lo, hi
 	f := curveOf(c)
@@ -804,14 +488,12 @@ func drawCalPlot(doc *fpdf.Fpdf, c batch.CalComponentRec, unit string, x, y, w, 
 		p.Y.Min, p.Y.Max = math.Min(0, ymin), ymax*1.05+1e-12
 	}
 	addPoints(p, ok, bad)
-	cv := newPDFCanvas(doc, x, y, w, h)
-	p.Draw(draw.New(cv))
-	cv.close()
+	drawPlot(doc, p, x, y, w, h)
 }
 
 // drawResidualPlot draws each point's residual (response − predicted).
 func drawResidualPlot(doc *fpdf.Fpdf, c batch.CalComponentRec, unit string, x, y, w, h float64) {
-	p := newCalPlot("Residuals", "Amount ("+unit+")", "Response − predicted")
+	p := newPlot("Residuals", 2, "Amount ("+unit+")", "Response − predicted")
 	lo, hi := xRange(c)
 	p.X.Min, p.X.Max = lo, hi
 	ok, bad := points(c, func(p batch.CalPointRec) *float64 { return p.Residual })
@@ -828,15 +510,13 @@ func drawResidualPlot(doc *fpdf.Fpdf, c batch.CalComponentRec, unit string, x, y
 	zero.LineStyle = draw.LineStyle{Color: fitColor, Width: vg.Points(0.5), Dashes: []vg.Length{vg.Points(2), vg.Points(1.2)}}
 	p.Add(zero)
 	addPoints(p, ok, bad)
-	cv := newPDFCanvas(doc, x, y, w, h)
-	p.Draw(draw.New(cv))
-	cv.close()
+	drawPlot(doc, p, x, y, w, h)
 }
 
 // sequence lists every injection with its role and status.
 func (d *lotDoc) sequence() {
 	d.section("Sequence", 14)
-	t := d.table("Sequence", 7.5, 2,
+	t := d.newTable("Sequence", 7.5, 2, true,
 		column{head: "No.", share: 5, right: true}, column{head: "ID", share: 7, inset: 2},
 		column{head: "Role", share: 12}, column{head: "Standard / sample", share: 26},
 		column{head: "Data file", share: 22}, column{head: "Status", share: 40})
@@ -878,7 +558,7 @@ func (d *lotDoc) warnings() {
 func (d *lotDoc) provenance() {
 	l, pv := d.lot, d.lot.Provenance
 	d.section("Provenance", 20)
-	t := d.table("Provenance", 8, 3, column{share: 28}, column{share: 72})
+	t := d.newTable("Provenance", 8, 3, false, column{share: 28}, column{share: 72})
 	kv := func(k, v string, mono bool) {
 		t.row(cell{text: k, color: &grey}, cell{text: v, mono: mono})
 	}
@@ -901,90 +581,10 @@ func (d *lotDoc) provenance() {
 	kv("Lot record SHA-256", d.digest, true)
 	kv("Processed at", nonEmpty(pv.ProcessedAt, "—"), false)
 	d.subheading("Data files (SHA-256 of each file as processed)", 8)
-	ft := d.table("Data files", 6.5, 1, column{head: "No.", share: 5, right: true},
+	ft := d.newTable("Data files", 6.5, 1, true, column{head: "No.", share: 5, right: true},
 		column{head: "File", share: 30, inset: 2}, column{head: "SHA-256", share: 65})
 	ft.start(5)
 	for _, in := range l.Injections {
 		ft.row(cell{text: strconv.Itoa(in.Number)}, cell{text: in.File}, cell{text: nonEmpty(in.InputSHA256, "not processed"), mono: true})
-	}
-}
-
-// signatures draws a name, signature and date line for each role.
-func (d *lotDoc) signatures() {
-	roles := d.lot.Report.Signatures
-	if len(roles) == 0 {
-		return
-	}
-	const rowH = 15.0
-	d.section("Review and release", rowH)
-	w := d.right - d.left
-	roleW := 0.30 * w
-	fields := []struct {
-		label string
-		share float64
-	}{{"Name", 0.27}, {"Signature", 0.25}, {"Date", 0.14}}
-	for _, role := range roles {
-		d.ensure(rowH)
-		d.font(fontSans, "B", 8.5)
-		d.ink(black)
-		lines := d.wrap(role, roleW-3, 2)
-		for k, l := range lines {
-			d.text(d.left, d.y+10-float64(len(lines)-k)*lineH(8.5), 8.5, l)
-		}
-		x := d.left + roleW
-		for _, f := range fields {
-			fw := f.share * w
-			d.doc.SetDrawColor(grey.r, grey.g, grey.b)
-			d.doc.SetLineWidth(0.25)
-			d.doc.Line(x, d.y+10, x+fw-4, d.y+10)
-			d.font(fontSans, "", 6.5)
-			d.ink(grey)
-			d.text(x, d.y+10.6, 6.5, f.label)
-			x += fw
-		}
-		d.y += rowH
-	}
-}
-
-// cautions lists the cautions: the default ones always, then the site's.
-func (d *lotDoc) cautions() {
-	list := slices.Clone(d.lot.Report.Cautions)
-	for i := len(pipeline.DefaultCautions) - 1; i >= 0; i-- {
-		if c := pipeline.DefaultCautions[i]; !slices.Contains(list, c) {
-			list = slices.Insert(list, 0, c)
-		}
-	}
-	d.section("Cautions", 3*lineH(8))
-	for i, s := range list {
-		d.font(fontSans, "", 8)
-		for k, l := range d.wrap(s, d.right-d.left-6, 0) {
-			d.ensure(lineH(8))
-			d.font(fontSans, "", 8)
-			d.ink(black)
-			if k == 0 {
-				d.text(d.left, d.y, 8, strconv.Itoa(i+1)+".")
-			}
-			d.text(d.left+6, d.y, 8, l)
-			d.y += lineH(8)
-		}
-		d.y += 0.8
-	}
-}
-
-// footers writes the lot, the record's digest and "Page N of M" on every page.
-func (d *lotDoc) footers() {
-	n := d.doc.PageCount()
-	id := "Lot " + nonEmpty(d.lot.Lot, "—") + " · sequence " + nonEmpty(d.lot.Sequence.Name, "—") +
-		" · lot record SHA-256 " + d.digest[:16] + "…"
-	for p := 1; p <= n; p++ {
-		d.doc.SetPage(p)
-		y := d.pageH - footerHeight + 4
-		d.hrule(y, 0.3, ruleGrey)
-		d.font(fontSans, "", 7.5)
-		d.ink(grey)
-		page := fmt.Sprintf("Page %d of %d", p, n)
-		idW := d.right - d.left - d.doc.GetStringWidth(page) - 6
-		d.text(d.left, y+1.5, 7.5, d.wrap(id, idW, 1)[0])
-		d.textRight(d.right, y+1.5, 7.5, page)
 	}
 }

@@ -1,13 +1,10 @@
 package reports
 
 import (
-	"archive/zip"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
 	"math"
-	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -53,19 +50,13 @@ func WriteLotXLSX(w io.Writer, lot *batch.Lot) error {
 	if err != nil {
 		return fmt.Errorf("lot xlsx: %w", err)
 	}
-	f := excelize.NewFile()
-	defer f.Close()
-	// The record's report settings give the paper size of every sheet.
-	b := &xlBook{f: f, rec: &pipeline.Record{Report: lot.Report}, numStyles: map[string]int{}}
-	b.styles()
-	b.check(f.SetSheetName("Sheet1", lotSheetSummary))
-	sheets := []string{lotSheetResults, lotSheetSuitability, lotSheetCalibration, lotSheetSequence, lotSheetProvenance}
+	sheets := []string{lotSheetSummary, lotSheetResults, lotSheetSuitability, lotSheetCalibration, lotSheetSequence, lotSheetProvenance}
 	if lot.Calibration != nil && len(lot.Calibration.Components) > 0 {
 		sheets = append(sheets, lotSheetChartData)
 	}
-	for _, s := range sheets {
-		b.newSheet(s)
-	}
+	// The record's report settings give the paper size of every sheet.
+	b := newXLBook(&pipeline.Record{Report: lot.Report}, sheets...)
+	defer b.f.Close()
 	lx := &lotBook{xlBook: b, lot: lot}
 	lx.summary()
 	lx.results()
@@ -75,28 +66,13 @@ func WriteLotXLSX(w io.Writer, lot *batch.Lot) error {
 	lx.provenance(digest)
 	title := strings.TrimSpace(lot.Report.Product + " — lot " + lot.Lot)
 	stamp := at.Format("2006-01-02T15:04:05Z")
-	b.check(f.SetDocProps(&excelize.DocProperties{
+	b.check(b.f.SetDocProps(&excelize.DocProperties{
 		Title: title, Subject: lotTitle(lot), Created: stamp, Modified: stamp,
 		Creator:     strings.TrimSpace(lot.Provenance.Tool + " " + lot.Provenance.Version),
 		Description: "Rendered from the lot record " + batch.LotStem(lot.Lot) + ".json",
 	}))
-	// excelize lists the image content types from a map, in an order that
-	// changes from run to run: put them in name order.
-	if ct := f.ContentTypes; ct != nil {
-		sort.SliceStable(ct.Defaults, func(i, j int) bool { return ct.Defaults[i].Extension < ct.Defaults[j].Extension })
-	}
-	if b.err != nil {
-		return fmt.Errorf("lot xlsx: %w", b.err)
-	}
-	zw := &xlZip{zw: zip.NewWriter(w), at: at}
-	zw.zw.RegisterCompressor(zip.Deflate, xlCompressor)
-	f.SetZipWriter(func(io.Writer) excelize.ZipWriter { return zw })
-	buf, err := f.WriteToBuffer()
-	if err != nil {
+	if err := b.write(w, at); err != nil {
 		return fmt.Errorf("lot xlsx: %w", err)
-	}
-	if buf.Len() != 0 {
-		return errors.New("lot xlsx: the workbook library wrote outside the zip stream")
 	}
 	return nil
 }
@@ -130,11 +106,6 @@ func (b *lotBook) para(sheet string, row, cols int, text string, style int, widt
 	if lines > 1 {
 		b.check(b.f.SetRowHeight(sheet, row, math.Min(409, 15*float64(lines))))
 	}
-}
-
-// freezeTop keeps the first row of a sheet in view.
-func (b *lotBook) freezeTop(sheet string) {
-	b.check(b.f.SetPanes(sheet, &excelize.Panes{Freeze: true, YSplit: 1, TopLeftCell: "A2", ActivePane: "bottomLeft"}))
 }
 
 func (b *lotBook) summary() {
@@ -174,16 +145,21 @@ func (b *lotBook) summary() {
 	row++
 	b.para(s, row, 6, words, b.wrap, total)
 	row += 2
-	b.str(s, 1, row, "Reasons", b.bold)
-	row++
-	if len(l.Reasons) == 0 {
-		b.str(s, 1, row, "None.", b.text)
+	// list writes a titled list of paragraphs; none, when not "", stands
+	// for an empty list.
+	list := func(title string, items []string, none string) {
+		b.str(s, 1, row, title, b.bold)
 		row++
+		if len(items) == 0 && none != "" {
+			b.str(s, 1, row, none, b.text)
+			row++
+		}
+		for _, it := range items {
+			b.para(s, row, 6, it, b.wrap, total)
+			row++
+		}
 	}
-	for _, r := range l.Reasons {
-		b.para(s, row, 6, r, b.wrap, total)
-		row++
-	}
+	list("Reasons", l.Reasons, "None.")
 	row++
 	b.str(s, 1, row, "Samples", b.bold)
 	row++
@@ -197,23 +173,9 @@ func (b *lotBook) summary() {
 		row++
 	}
 	row++
-	b.str(s, 1, row, "Warnings", b.bold)
+	list("Warnings", l.Warnings, "None.")
 	row++
-	if len(l.Warnings) == 0 {
-		b.str(s, 1, row, "None.", b.text)
-		row++
-	}
-	for _, w := range l.Warnings {
-		b.para(s, row, 6, w, b.wrap, total)
-		row++
-	}
-	row++
-	b.str(s, 1, row, "Cautions", b.bold)
-	row++
-	for _, c := range l.Report.Cautions {
-		b.para(s, row, 6, c, b.wrap, total)
-		row++
-	}
+	list("Cautions", l.Report.Cautions, "")
 }
 
 func (b *lotBook) results() {
@@ -577,36 +539,8 @@ func (b *lotBook) provenance(digest string) {
 		}
 		rows, err := xlSettings(blk.m)
 		b.check(err)
-		for _, r := range rows {
-			b.str(s, 1, row, blk.name, b.text)
-			b.str(s, 2, row, r.key, b.text)
-			switch v := r.value.(type) {
-			case json.Number:
-				x, err := v.Float64()
-				b.check(err)
-				b.float(s, 3, row, x, b.num("General"))
-			case string:
-				b.str(s, 3, row, v, b.text)
-			case bool:
-				b.str(s, 3, row, strconv.FormatBool(v), b.text)
-			}
-			row++
-		}
+		row = b.settingRows(s, row, blk.name, rows, func() int { return b.num("General") })
 	}
 	section("Report settings")
-	r := l.Report
-	kv("Site", r.Site)
-	for _, a := range r.Address {
-		kv("Address", a)
-	}
-	kv("Product", r.Product)
-	kv("Grade", r.Grade)
-	kv("Paper", r.Paper)
-	for _, sg := range r.Signatures {
-		kv("Signature line", sg)
-	}
-	if r.LogoFile != "" {
-		kv("Logo file", r.LogoFile)
-		kv("Logo SHA-256", r.LogoSHA256)
-	}
+	xlReportSettings(l.Report, kv)
 }

@@ -81,18 +81,12 @@ func WriteXLSX(w io.Writer, rec *pipeline.Record) error {
 		digested <- digest{sum, err}
 	}()
 
-	f := excelize.NewFile()
-	defer f.Close()
-	b := &xlBook{f: f, rec: rec, numStyles: map[string]int{}}
-	b.styles()
-	b.check(f.SetSheetName("Sheet1", xlSheetSummary))
-	sheets := []string{xlSheetChromatogram, xlSheetPeaks, xlSheetComponents, xlSheetProvenance, xlSheetTrace}
+	sheets := []string{xlSheetSummary, xlSheetChromatogram, xlSheetPeaks, xlSheetComponents, xlSheetProvenance, xlSheetTrace}
 	if rec.Trace != nil && rec.Trace.Points > 0 {
 		sheets = append(sheets, xlSheetChartData)
 	}
-	for _, name := range sheets {
-		b.newSheet(name)
-	}
+	b := newXLBook(rec, sheets...)
+	defer b.f.Close()
 	b.summary()
 	b.peaks()
 	b.components()
@@ -103,28 +97,50 @@ func WriteXLSX(w io.Writer, rec *pipeline.Record) error {
 	// touched again (excelize would parse it back whenever any call
 	// visits every sheet, as hiding a sheet does).
 	b.trace()
-	// excelize lists the image content types from a map, in an order
-	// that changes from run to run: put them in name order.
-	if ct := f.ContentTypes; ct != nil {
-		sort.SliceStable(ct.Defaults, func(i, j int) bool { return ct.Defaults[i].Extension < ct.Defaults[j].Extension })
-	}
 	d := <-digested
 	b.check(d.err)
 	b.str(xlSheetProvenance, 2, b.digestRow, d.sum, b.text)
-	if b.err != nil {
-		return fmt.Errorf("xlsx: %w", b.err)
-	}
-	// The zip is written straight to w, entry by entry, with every entry
-	// stamped with processed_at; excelize's own buffer stays empty.
-	zw := &xlZip{zw: zip.NewWriter(w), at: at}
-	zw.zw.RegisterCompressor(zip.Deflate, xlCompressor)
-	f.SetZipWriter(func(io.Writer) excelize.ZipWriter { return zw })
-	buf, err := f.WriteToBuffer()
-	if err != nil {
+	if err := b.write(w, at); err != nil {
 		return fmt.Errorf("xlsx: %w", err)
 	}
+	return nil
+}
+
+// newXLBook starts a workbook with the house styles and the named sheets,
+// in order; rec's report settings give the paper. The caller closes b.f.
+func newXLBook(rec *pipeline.Record, sheets ...string) *xlBook {
+	b := &xlBook{f: excelize.NewFile(), rec: rec, numStyles: map[string]int{}}
+	b.styles()
+	b.check(b.f.SetSheetName("Sheet1", sheets[0]))
+	for _, name := range sheets[1:] {
+		_, err := b.f.NewSheet(name)
+		b.check(err)
+	}
+	return b
+}
+
+// write reports the first error met while building the workbook, or else
+// writes the workbook to w as a zip with every entry stamped at.
+func (b *xlBook) write(w io.Writer, at time.Time) error {
+	// excelize lists the image content types from a map, in an order
+	// that changes from run to run: put them in name order.
+	if ct := b.f.ContentTypes; ct != nil {
+		sort.SliceStable(ct.Defaults, func(i, j int) bool { return ct.Defaults[i].Extension < ct.Defaults[j].Extension })
+	}
+	if b.err != nil {
+		return b.err
+	}
+	// The zip is written straight to w, entry by entry; excelize's own
+	// buffer stays empty.
+	zw := &xlZip{zw: zip.NewWriter(w), at: at}
+	zw.zw.RegisterCompressor(zip.Deflate, xlCompressor)
+	b.f.SetZipWriter(func(io.Writer) excelize.ZipWriter { return zw })
+	buf, err := b.f.WriteToBuffer()
+	if err != nil {
+		return err
+	}
 	if buf.Len() != 0 {
-		return errors.New("xlsx: the workbook library wrote outside the zip stream")
+		return errors.New("the workbook library wrote outside the zip stream")
 	}
 	return nil
 }
@@ -286,11 +302,6 @@ func (b *xlBook) statusStyle(status string) int {
 	return b.other
 }
 
-func (b *xlBook) newSheet(name string) {
-	_, err := b.f.NewSheet(name)
-	b.check(err)
-}
-
 // xlCell names a cell by 1-based column and row.
 func xlCell(col, row int) string {
 	name, _ := excelize.CoordinatesToCellName(col, row)
@@ -360,10 +371,15 @@ func (b *xlBook) widths(sheet string, ws ...float64) {
 	}
 }
 
+// freezeTop keeps the first row of a sheet in view on screen.
+func (b *xlBook) freezeTop(sheet string) {
+	b.check(b.f.SetPanes(sheet, &excelize.Panes{Freeze: true, YSplit: 1, TopLeftCell: "A2", ActivePane: "bottomLeft"}))
+}
+
 // freeze keeps the header row in view on screen and repeats it on every
 // printed page.
 func (b *xlBook) freeze(sheet string) {
-	b.check(b.f.SetPanes(sheet, &excelize.Panes{Freeze: true, YSplit: 1, TopLeftCell: "A2", ActivePane: "bottomLeft"}))
+	b.freezeTop(sheet)
 	b.check(b.f.SetDefinedName(&excelize.DefinedName{Name: "_xlnm.Print_Titles", RefersTo: "'" + sheet + "'!$1:$1", Scope: sheet}))
 }
 
@@ -853,21 +869,7 @@ func (b *xlBook) provenance() {
 			b.str(s, 2, row, "(no settings)", b.muted)
 			row++
 		}
-		for _, r := range rows {
-			b.str(s, 1, row, step, b.text)
-			b.str(s, 2, row, r.key, b.text)
-			switch v := r.value.(type) {
-			case json.Number:
-				x, err := v.Float64()
-				b.check(err)
-				b.float(s, 3, row, x, b.numLeft)
-			case string:
-				b.str(s, 3, row, v, b.text)
-			case bool:
-				b.str(s, 3, row, strconv.FormatBool(v), b.text)
-			}
-			row++
-		}
+		row = b.settingRows(s, row, step, rows, func() int { return b.numLeft })
 	}
 	settings("input", rec.Method.Input)
 	for i, st := range rec.Method.Steps {
@@ -900,6 +902,37 @@ func (b *xlBook) provenance() {
 	r := rec.Report
 	section("Report settings")
 	kv("Formats", strings.Join(r.Formats, ", "))
+	xlReportSettings(r, kv)
+	for _, c := range r.Cautions {
+		kv("Caution", c)
+	}
+}
+
+// settingRows writes rows of method settings from row on, columns A to C:
+// the block (or step) they belong to, the key and the value, a number in
+// the style num gives. It returns the next free row.
+func (b *xlBook) settingRows(sheet string, row int, block string, rows []xlSetting, num func() int) int {
+	for _, r := range rows {
+		b.str(sheet, 1, row, block, b.text)
+		b.str(sheet, 2, row, r.key, b.text)
+		switch v := r.value.(type) {
+		case json.Number:
+			x, err := v.Float64()
+			b.check(err)
+			b.float(sheet, 3, row, x, num())
+		case string:
+			b.str(sheet, 3, row, v, b.text)
+		case bool:
+			b.str(sheet, 3, row, strconv.FormatBool(v), b.text)
+		}
+		row++
+	}
+	return row
+}
+
+// xlReportSettings lists, through kv, the report settings that shape the
+// documents: site, address, product, grade, paper, signature lines, logo.
+func xlReportSettings(r pipeline.ReportSettings, kv func(k, v string)) {
 	kv("Site", r.Site)
 	for _, a := range r.Address {
 		kv("Address", a)
@@ -913,9 +946,6 @@ func (b *xlBook) provenance() {
 	if r.LogoFile != "" {
 		kv("Logo file", r.LogoFile)
 		kv("Logo SHA-256", r.LogoSHA256)
-	}
-	for _, c := range r.Cautions {
-		kv("Caution", c)
 	}
 }
 
