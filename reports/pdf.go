@@ -2,8 +2,6 @@ package reports
 
 import (
 	"bytes"
-	"crypto/sha256"
-	"encoding/hex"
 	"errors"
 	"fmt"
 	"image"
@@ -41,23 +39,19 @@ func WritePDF(w io.Writer, rec *pipeline.Record, logo []byte) error {
 	if rec == nil {
 		return errors.New("pdf: no record to render")
 	}
+	return writePDF(w, rec, logo, digestLater(rec))
+}
+
+// writePDF is WritePDF with the record's digest supplied.
+func writePDF(w io.Writer, rec *pipeline.Record, logo []byte, d digest) error {
+	if rec == nil {
+		return errors.New("pdf: no record to render")
+	}
 	c, err := newCert(rec, logo)
 	if err != nil {
 		return fmt.Errorf("pdf: %w", err)
 	}
-	// Encoding a long trace for the record's digest takes as long as the
-	// rest of the certificate: it runs alongside the layout.
-	type result struct {
-		digest string
-		err    error
-	}
-	digest := make(chan result, 1)
-	go func() {
-		data, err := rec.Marshal()
-		sum := sha256.Sum256(data)
-		digest <- result{hex.EncodeToString(sum[:]), err}
-	}()
-	c.render(func() (string, error) { r := <-digest; return r.digest, r.err })
+	c.render(d)
 	if err := c.doc.Output(w); err != nil {
 		return fmt.Errorf("pdf: %w", err)
 	}

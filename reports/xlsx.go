@@ -4,8 +4,6 @@ import (
 	"archive/zip"
 	"bytes"
 	"compress/flate"
-	"crypto/sha256"
-	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -61,6 +59,14 @@ func WriteXLSX(w io.Writer, rec *pipeline.Record) error {
 	if rec == nil {
 		return errors.New("xlsx: no record")
 	}
+	return writeXLSX(w, rec, digestLater(rec))
+}
+
+// writeXLSX is WriteXLSX with the record's digest supplied.
+func writeXLSX(w io.Writer, rec *pipeline.Record, digest digest) error {
+	if rec == nil {
+		return errors.New("xlsx: no record")
+	}
 	at, err := time.Parse(time.RFC3339, rec.Provenance.ProcessedAt)
 	if err != nil {
 		return fmt.Errorf("xlsx: the record's processed_at %q is not an RFC 3339 time: %w", rec.Provenance.ProcessedAt, err)
@@ -69,18 +75,6 @@ func WriteXLSX(w io.Writer, rec *pipeline.Record) error {
 	if err := xlCheckTrace(rec.Trace); err != nil {
 		return fmt.Errorf("xlsx: %w", err)
 	}
-	// The record's digest needs its whole JSON encoding: make it while the
-	// workbook is built.
-	type digest struct {
-		sum string
-		err error
-	}
-	digested := make(chan digest, 1)
-	go func() {
-		sum, err := xlRecordDigest(rec)
-		digested <- digest{sum, err}
-	}()
-
 	sheets := []string{xlSheetSummary, xlSheetChromatogram, xlSheetPeaks, xlSheetComponents, xlSheetProvenance, xlSheetTrace}
 	if rec.Trace != nil && rec.Trace.Points > 0 {
 		sheets = append(sheets, xlSheetChartData)
@@ -97,9 +91,9 @@ func WriteXLSX(w io.Writer, rec *pipeline.Record) error {
 	// touched again (excelize would parse it back whenever any call
 	// visits every sheet, as hiding a sheet does).
 	b.trace()
-	d := <-digested
-	b.check(d.err)
-	b.str(xlSheetProvenance, 2, b.digestRow, d.sum, b.text)
+	sum, err := digest()
+	b.check(err)
+	b.str(xlSheetProvenance, 2, b.digestRow, sum, b.text)
 	if err := b.write(w, at); err != nil {
 		return fmt.Errorf("xlsx: %w", err)
 	}
@@ -143,17 +137,6 @@ func (b *xlBook) write(w io.Writer, at time.Time) error {
 		return errors.New("the workbook library wrote outside the zip stream")
 	}
 	return nil
-}
-
-// xlRecordDigest is the SHA-256 of the record's JSON, the bytes lotgate
-// writes for it.
-func xlRecordDigest(rec *pipeline.Record) (string, error) {
-	js, err := rec.Marshal()
-	if err != nil {
-		return "", fmt.Errorf("cannot encode the record for its digest: %w", err)
-	}
-	sum := sha256.Sum256(js)
-	return hex.EncodeToString(sum[:]), nil
 }
 
 // xlFlate pools the compressors of the zip entries: a workbook has a score

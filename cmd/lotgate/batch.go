@@ -218,12 +218,9 @@ func (j batchJob) writeInjection(o *batch.Outcome) ([]reports.Output, error) {
 			}
 		}
 	}
-	datas := make([][]byte, len(formats))
-	for i, f := range formats {
-		var err error
-		if datas[i], err = reports.Render(f, o.Record, j.p.Logo); err != nil {
-			return nil, err
-		}
+	datas, err := reports.RenderAll(o.Record, j.p.Logo, formats)
+	if err != nil {
+		return nil, err
 	}
 	var outs []reports.Output
 	for i, f := range formats {
