@@ -117,7 +117,11 @@ func report(results []outcome, stdout, stderr io.Writer) int {
 	status := exitOK
 	for _, o := range results {
 		if o.err != nil {
-			fmt.Fprintf(stderr, "%s: error: %s\n", o.file, oneLine(o.err))
+			msg := oneLine(o.err)
+			if !strings.HasPrefix(msg, o.file) {
+				msg = o.file + ": " + msg
+			}
+			fmt.Fprintf(stderr, "error: %s\n", msg)
 			status = exitFileFail
 			continue
 		}
