@@ -11,7 +11,6 @@ import (
 	"fmt"
 	"io/fs"
 	"maps"
-	"math"
 	"math/rand/v2"
 	"os"
 	"os/exec"
@@ -26,6 +25,7 @@ import (
 	"testing"
 	"time"
 
+	"lotgate/examples/synth"
 	"lotgate/pipeline/watch"
 )
 
@@ -68,48 +68,6 @@ func TestWatch(t *testing.T) {
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) { tc.fn(t, bin) })
 	}
-}
-
-const smallPipeline = `
-pipeline "watch-test" {
-  revision = 1
-}
-input { signal_unit = "pA" }
-smooth {
-  window = 5
-  order  = 2
-}
-baseline {}
-detect { min_snr = 5 }
-integrate {}
-identify {
-  component "main" {
-    rt     = 4.0
-    window = 0.3
-    main   = true
-  }
-}
-quantify { method = "area-percent" }
-limit "Purity" {
-  value = component.main.percent
-  min   = 95.0
-}
-report { formats = ["json"] }
-`
-
-// synth is a small chromatogram: 400 points at 0.025 min, a main peak at
-// 4 min and a smaller one at 6 min over a noisy baseline; the lot line
-// makes every i a different file.
-func synth(i int) []byte {
-	r := rand.New(rand.NewPCG(uint64(i), 11))
-	var b bytes.Buffer
-	fmt.Fprintf(&b, "# Lot: W-%06d\n# Sample type: sample\ntime (min),signal (pA)\n", i)
-	for k := range 400 {
-		t := float64(k) * 0.025
-		y := 5 + 0.2*r.NormFloat64() + 100*math.Exp(-0.5*math.Pow((t-4)/0.05, 2)) + float64(1+i%7)*math.Exp(-0.5*math.Pow((t-6)/0.05, 2))
-		fmt.Fprintf(&b, "%.3f,%.4f\n", t, y)
-	}
-	return b.Bytes()
 }
 
 // digest is the SHA-256 of b, computed here independently of the watcher
@@ -159,7 +117,7 @@ func (f *fixture) drop(name string, data []byte) {
 // dropNew drops n new unique files named PREFIX-i.csv.
 func (f *fixture) dropNew(prefix string, n int) {
 	for range n {
-		f.drop(fmt.Sprintf("%s-%05d.csv", prefix, f.next), synth(f.next))
+		f.drop(fmt.Sprintf("%s-%05d.csv", prefix, f.next), synth.Small(f.next))
 		f.next++
 	}
 }
@@ -586,7 +544,7 @@ func (p *proc) sampleRSS() {
 
 func testBurst(t *testing.T, bin string) {
 	n, bursts := scale(120, 500), 4
-	f := newFixture(t, bin, smallPipeline)
+	f := newFixture(t, bin, synth.SmallPipeline)
 	p := f.start(nil)
 	for b := range bursts {
 		f.dropNew(fmt.Sprintf("burst%d", b), n/bursts)
@@ -601,10 +559,10 @@ func testBurst(t *testing.T, bin string) {
 // A file written in chunks, with one pause longer than the settle time in
 // the middle of a line, is taken once, whole, after its last chunk.
 func testSlowWriter(t *testing.T, bin string) {
-	f := newFixture(t, bin, smallPipeline)
+	f := newFixture(t, bin, synth.SmallPipeline)
 	f.settle, f.incompleteWait = "1s", "20s"
 	p := f.start(nil)
-	data := synth(1)
+	data := synth.Small(1)
 	fh, err := os.Create(filepath.Join(f.inbox, "slow.csv"))
 	if err != nil {
 		t.Fatal(err)
@@ -657,7 +615,7 @@ func testSlowWriter(t *testing.T, bin string) {
 // no temporary file is left, and the ledger verifies after every crash.
 func testCrash(t *testing.T, bin string) {
 	kills := scale(12, 48)
-	f := newFixture(t, bin, smallPipeline)
+	f := newFixture(t, bin, synth.SmallPipeline)
 	rng := rand.New(rand.NewPCG(2026, 12))
 	bad := map[string]bool{}
 	events := []string{watch.EvReceived, watch.EvClaimed, watch.EvComputed, watch.EvReported, watch.EvArchived,
@@ -666,7 +624,7 @@ func testCrash(t *testing.T, bin string) {
 	fired, random, midway := 0, 0, 0
 	for k := range kills {
 		f.dropNew(fmt.Sprintf("round%02d", k), 3)
-		f.drop(fmt.Sprintf("dup-%02d.csv", k), synth(rng.IntN(f.next-1)))
+		f.drop(fmt.Sprintf("dup-%02d.csv", k), synth.Small(rng.IntN(f.next-1)))
 		name := fmt.Sprintf("bad-%02d.csv", k)
 		f.drop(name, []byte(fmt.Sprintf("time,signal\n0,1\n1,NaN\n# round %d\n", k)))
 		bad[name] = true
@@ -722,7 +680,7 @@ func testCrash(t *testing.T, bin string) {
 // removed entry make the watcher refuse to start, loudly, and leave the
 // inbox alone.
 func testTornLedger(t *testing.T, bin string) {
-	f := newFixture(t, bin, smallPipeline)
+	f := newFixture(t, bin, synth.SmallPipeline)
 	f.dropNew("a", 4)
 	p := f.start([]string{"LOTGATE_WATCH_CRASH_AFTER=archived:2"}, "--workers", "1", "--until-idle")
 	if code := p.wait(t, time.Minute); code != -1 {
@@ -773,7 +731,7 @@ func testTornLedger(t *testing.T, bin string) {
 		}
 	}
 	// A zero-length ledger in fresh folders is a new ledger.
-	g := newFixture(t, bin, smallPipeline)
+	g := newFixture(t, bin, synth.SmallPipeline)
 	os.MkdirAll(g.out, 0o755)
 	os.WriteFile(filepath.Join(g.out, watch.LedgerFile), nil, 0o644)
 	g.dropNew("fresh", 1)
@@ -785,7 +743,7 @@ func testTornLedger(t *testing.T, bin string) {
 // first listing, without a single event.
 func testWaiting(t *testing.T, bin string) {
 	n := scale(300, 2000)
-	f := newFixture(t, bin, smallPipeline)
+	f := newFixture(t, bin, synth.SmallPipeline)
 	f.dropNew("waiting", n)
 	p := f.runIdle()
 	want := fmt.Sprintf("files found by listing %d, by event 0", n)
@@ -799,8 +757,8 @@ func testWaiting(t *testing.T, bin string) {
 // Garbage, empty, truncated and otherwise bad files are quarantined with a
 // one-line reason naming the problem; the watcher goes on with the good.
 func testBadFiles(t *testing.T, bin string) {
-	f := newFixture(t, bin, smallPipeline)
-	good := synth(5)
+	f := newFixture(t, bin, synth.SmallPipeline)
+	good := synth.Small(5)
 	rows := strings.SplitAfter(string(good), "\n")
 	binary := make([]byte, 600)
 	for i := range binary {
@@ -850,20 +808,20 @@ var safeDocName = regexp.MustCompile(`^[\p{L}\p{N}+][\p{L}\p{N}._+-]*-[0-9a-f]{1
 // and quarantined, its target untouched; the same content twice is
 // certified once; an edited ledger line makes `ledger verify` fail.
 func testNamesLinksDuplicates(t *testing.T, bin string) {
-	f := newFixture(t, bin, smallPipeline)
+	f := newFixture(t, bin, synth.SmallPipeline)
 	names := []string{"lot 7 (copy).csv", "ünïcødé λ.csv", "$(touch pwned);`id`.csv", "a;b&c|d'e\"f.csv", "-rf.csv", "new\nline.csv", "ab*?[x].csv"}
 	for i, n := range names {
-		f.drop(n, synth(100+i))
+		f.drop(n, synth.Small(100+i))
 	}
-	f.drop("same as lot 7.csv", synth(100))
+	f.drop("same as lot 7.csv", synth.Small(100))
 	secret := filepath.Join(f.dir, "secret.csv")
-	os.WriteFile(secret, synth(200), 0o644)
+	os.WriteFile(secret, synth.Small(200), 0o644)
 	os.Symlink(secret, filepath.Join(f.inbox, "escape.csv"))
 	os.Symlink("lot 7 (copy).csv", filepath.Join(f.inbox, "inside.csv"))
 	f.dropped["escape.csv"], f.dropped["inside.csv"] = nil, nil
 	temporary := []string{".hidden.csv", "late.csv.part", "~lock.csv", "y.csv.tmp", "z.csv~"}
 	for _, n := range temporary {
-		os.WriteFile(filepath.Join(f.inbox, n), synth(300), 0o644)
+		os.WriteFile(filepath.Join(f.inbox, n), synth.Small(300), 0o644)
 	}
 	f.runIdle()
 	bad := map[string]bool{"escape.csv": true, "inside.csv": true}
@@ -876,10 +834,10 @@ func testNamesLinksDuplicates(t *testing.T, bin string) {
 		}
 	}
 	// Renamed to its final name, a file is taken.
-	f.drop("late.csv.part", synth(300))
+	f.drop("late.csv.part", synth.Small(300))
 	delete(f.dropped, "late.csv.part")
 	os.Rename(filepath.Join(f.inbox, "late.csv.part"), filepath.Join(f.inbox, "late.csv"))
-	f.dropped["late.csv"] = synth(300)
+	f.dropped["late.csv"] = synth.Small(300)
 	f.runIdle()
 	certified := f.check(bad)
 	for _, it := range certified {
@@ -887,7 +845,7 @@ func testNamesLinksDuplicates(t *testing.T, bin string) {
 			t.Errorf("%q was written as %q, not a safe name", it.file, it.outputs[0].File)
 		}
 	}
-	if b, err := os.ReadFile(secret); err != nil || !bytes.Equal(b, synth(200)) {
+	if b, err := os.ReadFile(secret); err != nil || !bytes.Equal(b, synth.Small(200)) {
 		t.Errorf("the link's target was moved or changed: %v", err)
 	}
 	for _, n := range []string{"escape.csv", "inside.csv"} {
@@ -922,7 +880,7 @@ func firstOr(m []string) string {
 // With events off, listings alone find every file dropped while running.
 func testPolling(t *testing.T, bin string) {
 	n := scale(40, 200)
-	f := newFixture(t, bin, smallPipeline)
+	f := newFixture(t, bin, synth.SmallPipeline)
 	p := f.start(nil, "--poll", "--rescan", "300ms")
 	time.Sleep(300 * time.Millisecond)
 	f.dropNew("poll-a", n/2)
@@ -939,7 +897,7 @@ func testPolling(t *testing.T, bin string) {
 // A second watcher on the same output folder is refused; an edit of the
 // pipeline while watching is reported and recorded, and not used.
 func testLockAndPipelineEdit(t *testing.T, bin string) {
-	f := newFixture(t, bin, smallPipeline)
+	f := newFixture(t, bin, synth.SmallPipeline)
 	p := f.start(nil)
 	f.waitCount(p, watch.EvStart, 1, 30*time.Second)
 	second := f.start(nil)
@@ -947,8 +905,8 @@ func testLockAndPipelineEdit(t *testing.T, bin string) {
 	if code := second.wait(t, 30*time.Second); code != exitUsage || !strings.Contains(second.stderr.String(), want) {
 		t.Errorf("second watcher: exit %d, stderr %q; want %d and %q", code, second.stderr.String(), exitUsage, want)
 	}
-	loaded := digest([]byte(smallPipeline))
-	os.WriteFile(f.pipe, []byte(strings.Replace(smallPipeline, "min   = 95.0", "min   = 99.9", 1)), 0o644)
+	loaded := digest([]byte(synth.SmallPipeline))
+	os.WriteFile(f.pipe, []byte(strings.Replace(synth.SmallPipeline, "min   = 95.0", "min   = 99.9", 1)), 0o644)
 	f.waitCount(p, watch.EvPipelineChanged, 1, 30*time.Second)
 	f.dropNew("after-edit", 1)
 	f.waitDone(p, 1, 30*time.Second)
@@ -956,7 +914,7 @@ func testLockAndPipelineEdit(t *testing.T, bin string) {
 	if !strings.Contains(p.stderr.String(), "edited while watching") {
 		t.Errorf("the edit was not logged:\n%s", tail(p.stderr.String(), 2000))
 	}
-	os.WriteFile(f.pipe, []byte(smallPipeline), 0o644) // for the reference run
+	os.WriteFile(f.pipe, []byte(synth.SmallPipeline), 0o644) // for the reference run
 	certified := f.check(nil)
 	if len(certified) != 1 {
 		t.Fatalf("%d certified, want 1", len(certified))
@@ -973,7 +931,7 @@ func testLockAndPipelineEdit(t *testing.T, bin string) {
 // The first signal lets the files in flight finish; a second stops at
 // once; either way a restart finishes everything exactly once.
 func testSignals(t *testing.T, bin string) {
-	f := newFixture(t, bin, smallPipeline)
+	f := newFixture(t, bin, synth.SmallPipeline)
 	f.dropNew("sig", scale(60, 200))
 	p := f.start(nil)
 	f.waitDone(p, 5, time.Minute)
@@ -1000,7 +958,7 @@ func testSignals(t *testing.T, bin string) {
 // workers only.
 func testMemory(t *testing.T, bin string) {
 	n := scale(400, 5000)
-	f := newFixture(t, bin, smallPipeline)
+	f := newFixture(t, bin, synth.SmallPipeline)
 	p := f.start(nil)
 	f.waitCount(p, watch.EvStart, 1, 30*time.Second)
 	f.dropNew("mem", n)
@@ -1060,7 +1018,7 @@ func testDemoWatch(t *testing.T, bin string) {
 
 func TestWatchUsage(t *testing.T) {
 	dir := t.TempDir()
-	pipe := writeFile(t, dir, "p.hcl", smallPipeline)
+	pipe := writeFile(t, dir, "p.hcl", synth.SmallPipeline)
 	inbox := filepath.Join(dir, "inbox")
 	os.Mkdir(inbox, 0o755)
 	cases := []struct {

@@ -8,6 +8,7 @@ import (
 	"testing"
 	"time"
 
+	"lotgate/examples/synth"
 	"lotgate/pipeline"
 )
 
@@ -18,13 +19,13 @@ func BenchmarkWatch(b *testing.B) {
 	dir := b.TempDir()
 	inbox, out, pipePath := filepath.Join(dir, "inbox"), filepath.Join(dir, "out"), filepath.Join(dir, "p.hcl")
 	os.Mkdir(inbox, 0o755)
-	os.WriteFile(pipePath, []byte(testPipeline), 0o644)
+	os.WriteFile(pipePath, []byte(synth.SmallPipeline), 0o644)
 	p, err := pipeline.Load(pipePath)
 	if err != nil {
 		b.Fatal(err)
 	}
 	for i := range b.N {
-		os.WriteFile(filepath.Join(inbox, fmt.Sprintf("f%07d.csv", i)), synth(i), 0o644)
+		os.WriteFile(filepath.Join(inbox, fmt.Sprintf("f%07d.csv", i)), synth.Small(i), 0o644)
 	}
 	w, err := New(Options{Pipeline: p, Inbox: inbox, Out: out, Workers: 2, Settle: time.Millisecond, Poll: true, UntilIdle: true})
 	if err != nil {

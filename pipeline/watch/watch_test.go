@@ -6,8 +6,6 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"fmt"
-	"math"
-	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strings"
@@ -16,50 +14,9 @@ import (
 
 	"github.com/fsnotify/fsnotify"
 
+	"lotgate/examples/synth"
 	"lotgate/pipeline"
 )
-
-const testPipeline = `
-pipeline "watch-test" {
-  revision = 1
-}
-input { signal_unit = "pA" }
-smooth {
-  window = 5
-  order  = 2
-}
-baseline {}
-detect { min_snr = 5 }
-integrate {}
-identify {
-  component "main" {
-    rt     = 4.0
-    window = 0.3
-    main   = true
-  }
-}
-quantify { method = "area-percent" }
-limit "Purity" {
-  value = component.main.percent
-  min   = 95.0
-}
-report { formats = ["json"] }
-`
-
-// synth is a small chromatogram: 400 points at 0.025 min, a main peak at 4
-// min and a smaller one at 6 min over a noisy baseline; the lot line makes
-// every i a different file.
-func synth(i int) []byte {
-	r := rand.New(rand.NewPCG(uint64(i), 7))
-	var b bytes.Buffer
-	fmt.Fprintf(&b, "# Lot: W-%05d\ntime (min),signal (pA)\n", i)
-	for k := range 400 {
-		t := float64(k) * 0.025
-		y := 5 + 0.2*r.NormFloat64() + 100*math.Exp(-0.5*math.Pow((t-4)/0.05, 2)) + float64(2+i%5)*math.Exp(-0.5*math.Pow((t-6)/0.05, 2))
-		fmt.Fprintf(&b, "%.3f,%.4f\n", t, y)
-	}
-	return b.Bytes()
-}
 
 // runOnce runs a watcher over the files until it is idle.
 func runOnce(t *testing.T, files map[string][]byte) (inbox, out string, sum Summary) {
@@ -67,7 +24,7 @@ func runOnce(t *testing.T, files map[string][]byte) (inbox, out string, sum Summ
 	dir := t.TempDir()
 	inbox, out = filepath.Join(dir, "inbox"), filepath.Join(dir, "out")
 	pipePath := filepath.Join(dir, "p.hcl")
-	if err := os.WriteFile(pipePath, []byte(testPipeline), 0o644); err != nil {
+	if err := os.WriteFile(pipePath, []byte(synth.SmallPipeline), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	p, err := pipeline.Load(pipePath)
@@ -109,7 +66,7 @@ func copyDir(t *testing.T, src string) string {
 // Verify agrees with a clean run and finds every kind of damage to the
 // folder afterwards.
 func TestVerify(t *testing.T) {
-	files := map[string][]byte{"a.csv": synth(1), "b.csv": synth(2), "c.csv": synth(3), "a-again.csv": synth(1), "bad.csv": []byte("not, a chromatogram\n")}
+	files := map[string][]byte{"a.csv": synth.Small(1), "b.csv": synth.Small(2), "c.csv": synth.Small(3), "a-again.csv": synth.Small(1), "bad.csv": []byte("not, a chromatogram\n")}
 	_, out, sum := runOnce(t, files)
 	if sum.Certified != 3 || sum.Duplicates != 1 || sum.Quarantined != 1 || sum.Unfinished != 0 {
 		t.Fatalf("summary %+v", sum)
@@ -142,7 +99,7 @@ func TestVerify(t *testing.T) {
 			os.WriteFile(p, bytes.Replace(b, []byte(`"verdict": "pass"`), []byte(`"verdict": "fail"`), 1), 0o644)
 		}, "does not have the SHA-256 the ledger recorded"},
 		{"document removed", func(d string) { os.Remove(find(d, ".json")) }, "no such file"},
-		{"archived input edited", func(d string) { os.WriteFile(find(filepath.Join(d, "archive"), ".csv"), synth(9), 0o644) }, "no longer has the SHA-256"},
+		{"archived input edited", func(d string) { os.WriteFile(find(filepath.Join(d, "archive"), ".csv"), synth.Small(9), 0o644) }, "no longer has the SHA-256"},
 		{"archived input removed", func(d string) { os.Remove(find(filepath.Join(d, "archive"), ".csv")) }, "archived input"},
 		{"reason removed", func(d string) { os.Remove(find(filepath.Join(d, "quarantine"), ".reason.txt")) }, "quarantined"},
 		{"ledger line edited", func(d string) {
@@ -195,7 +152,7 @@ func TestOverflowListsAtOnce(t *testing.T) {
 	dir := t.TempDir()
 	inbox, out, pipePath := filepath.Join(dir, "inbox"), filepath.Join(dir, "out"), filepath.Join(dir, "p.hcl")
 	os.Mkdir(inbox, 0o755)
-	os.WriteFile(pipePath, []byte(testPipeline), 0o644)
+	os.WriteFile(pipePath, []byte(synth.SmallPipeline), 0o644)
 	p, err := pipeline.Load(pipePath)
 	if err != nil {
 		t.Fatal(err)
@@ -217,7 +174,7 @@ func TestOverflowListsAtOnce(t *testing.T) {
 	}()
 	time.Sleep(100 * time.Millisecond) // the first listing has found nothing; no rescan comes for an hour
 	for i := range 3 {
-		os.WriteFile(filepath.Join(inbox, fmt.Sprintf("missed-%d.csv", i)), synth(i), 0o644)
+		os.WriteFile(filepath.Join(inbox, fmt.Sprintf("missed-%d.csv", i)), synth.Small(i), 0o644)
 	}
 	errs <- fsnotify.ErrEventOverflow
 	for deadline := time.Now().Add(30 * time.Second); ; time.Sleep(10 * time.Millisecond) {
@@ -239,12 +196,12 @@ func TestOverflowListsAtOnce(t *testing.T) {
 func TestPendingLimit(t *testing.T) {
 	files := map[string][]byte{}
 	for i := range 12 {
-		files[fmt.Sprintf("f%02d.csv", i)] = synth(i)
+		files[fmt.Sprintf("f%02d.csv", i)] = synth.Small(i)
 	}
 	dir := t.TempDir()
 	inbox, out, pipePath := filepath.Join(dir, "inbox"), filepath.Join(dir, "out"), filepath.Join(dir, "p.hcl")
 	os.Mkdir(inbox, 0o755)
-	os.WriteFile(pipePath, []byte(testPipeline), 0o644)
+	os.WriteFile(pipePath, []byte(synth.SmallPipeline), 0o644)
 	for name, data := range files {
 		os.WriteFile(filepath.Join(inbox, name), data, 0o644)
 	}
